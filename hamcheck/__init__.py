@@ -1,0 +1,40 @@
+"""hamcheck: numerical checks of Hamiltonian G-spaces (float64 jax autodiff, CPU).
+
+Declare a chart, a two-form, a Lie algebra action and a moment map as Python
+functions; :func:`check` tests every axiom at sampled points and says what is
+wrong and how to fix it. Passing checks at sample points are strong evidence,
+not a proof.
+
+Importing hamcheck turns on ``jax_enable_x64`` (float64); nothing else in jax's
+configuration is changed.
+"""
+
+from .algebra import LieAlgebra
+from .checks import CHECK_NAMES
+from .diagnose import FINDING_KINDS
+from .errors import HamcheckError, ModelError, UsageError
+from .model import Convention, Model
+from .numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
+from .report import CheckResult, Finding, Report
+from .suite import Settings, check
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "CHECK_NAMES",
+    "CheckResult",
+    "Convention",
+    "FINDING_KINDS",
+    "FINITE_DIFFERENCE_TOLERANCES",
+    "Finding",
+    "HamcheckError",
+    "LieAlgebra",
+    "Model",
+    "ModelError",
+    "Report",
+    "Settings",
+    "TOLERANCES",
+    "Tolerances",
+    "UsageError",
+    "check",
+]

@@ -1,0 +1,296 @@
+"""Declaring a Hamiltonian G-space: :class:`Convention` and :class:`Model`.
+
+A model is a chart ``x in R^dim`` with
+
+* ``form(x)``: the matrix ``omega_ij(x)``, so ``omega(u, v) = u^T form(x) v``;
+* ``moment(x)``: the components ``<mu(x), e_a>`` in the algebra's basis;
+* ``vector_fields(x)`` (row ``a`` is ``X_{e_a}(x)``) and/or ``action(g, x)``
+  (a left action of the group element ``g``, a matrix);
+* ``sample(rng)``: a random point of the chart's domain.
+
+Declaration calls each function once at a sample point and raises
+:class:`~hamcheck.ModelError` with the function, the expected shape and the
+shape it returned, so mistakes in the declaration surface before any check.
+
+Example
+-------
+>>> import numpy as np, jax.numpy as jnp
+>>> from hamcheck import LieAlgebra, Model, check
+>>> u1 = LieAlgebra.from_matrices([np.array([[0.0, -1.0], [1.0, 0.0]])], names=["rot"])
+>>> plane = Model("plane", 2, form=lambda x: jnp.array([[0.0, 1.0], [-1.0, 0.0]]),
+...               algebra=u1, moment=lambda x: jnp.array([-(x[0]**2 + x[1]**2) / 2]),
+...               action=lambda g, x: g @ x)
+>>> check(plane, points=8).passed
+True
+"""
+
+from __future__ import annotations
+
+import inspect
+import os
+from dataclasses import dataclass
+
+import numpy as np
+
+from ._jax import jax, jnp
+from .algebra import LieAlgebra
+from .differentiation import AUTODIFF, FiniteDifferences
+from .errors import ModelError
+
+__all__ = ["Convention", "Model"]
+
+_DERIVATIVES = ("autodiff", "finite-differences")
+
+
+@dataclass(frozen=True)
+class Convention:
+    """The sign convention a model is declared in.
+
+    The model satisfies ``iota_{X_xi} omega = sign * d<mu, xi>`` with
+    ``X_xi(m) = d/dt|0 exp(flow * t * xi) . m`` and ``(iota_X omega)_j =
+    X^i omega_ij`` (contraction in the first slot). Only the product
+    ``sign * flow`` enters the moment equation and the equivariance identity
+    ``omega(X_xi, X_eta) = sign * flow * <mu, [xi, eta]>``; ``flow`` also fixes
+    the bracket relation ``[X_xi, X_eta] = -flow * X_[xi, eta]`` of the
+    fundamental vector fields (vector-field bracket ``[X, Y] = (DY) X - (DX) Y``).
+    """
+
+    sign: int = +1
+    flow: int = +1
+
+    def __post_init__(self):
+        for field in ("sign", "flow"):
+            v = getattr(self, field)
+            if v not in (1, -1):
+                raise ModelError(f"Convention.{field} must be +1 or -1; got {v!r}")
+
+    @property
+    def effective_sign(self) -> int:
+        """``sign * flow``: the sign in ``omega(X_xi, X_eta) = s <mu, [xi, eta]>``."""
+        return self.sign * self.flow
+
+
+def _caller_file() -> str | None:
+    here = os.path.dirname(os.path.abspath(__file__))
+    for frame in inspect.stack()[2:]:
+        path = os.path.abspath(frame.filename)
+        if not path.startswith(here) and not frame.filename.startswith("<"):
+            return path
+    return None
+
+
+def _shape(value) -> tuple:
+    return tuple(np.shape(value))
+
+
+class Model:
+    """A Hamiltonian G-space in a chart, ready to be checked.
+
+    Parameters
+    ----------
+    name : str
+        Used in reports and replay commands.
+    dim : int
+        Dimension of the chart.
+    form : callable ``x -> (dim, dim)``
+    algebra : LieAlgebra
+    moment : callable ``x -> (algebra.dim,)``
+    vector_fields : callable ``x -> (algebra.dim, dim)``, optional
+        Row ``a`` is ``X_{e_a}(x)`` in the model's convention (so it includes
+        the ``flow`` sign). Derived from ``action`` by autodiff when omitted.
+    action : callable ``(g, x) -> (dim,)``, optional
+        Left action of a group element ``g`` (a matrix, jax array).
+    sample : callable ``rng -> (dim,)``, optional
+        A random point of the chart's domain from a ``numpy.random.Generator``.
+        Default: standard normal in ``R^dim``.
+    convention : Convention
+    derivatives : ``"autodiff"`` (default) or ``"finite-differences"``
+        The fallback for functions written in plain numpy that jax cannot
+        trace: central differences with widened tolerances, marked in every
+        report. Never chosen automatically.
+    """
+
+    def __init__(
+        self,
+        name,
+        dim,
+        form,
+        algebra,
+        moment,
+        *,
+        vector_fields=None,
+        action=None,
+        sample=None,
+        convention=Convention(),
+        derivatives="autodiff",
+    ):
+        if not isinstance(name, str) or not name:
+            raise ModelError(f"name must be a non-empty string; got {name!r}")
+        if isinstance(dim, bool) or not isinstance(dim, (int, np.integer)) or dim < 1:
+            raise ModelError(f"dim must be a positive integer; got {dim!r}")
+        if not isinstance(algebra, LieAlgebra):
+            raise ModelError(
+                f"algebra must be a hamcheck.LieAlgebra (use LieAlgebra.from_matrices); got {type(algebra).__name__}"
+            )
+        if not isinstance(convention, Convention):
+            raise ModelError(f"convention must be a hamcheck.Convention; got {type(convention).__name__}")
+        if derivatives not in _DERIVATIVES:
+            raise ModelError(f"derivatives must be one of {_DERIVATIVES}; got {derivatives!r}")
+        for label, fn, required in (
+            ("form", form, True),
+            ("moment", moment, True),
+            ("vector_fields", vector_fields, False),
+            ("action", action, False),
+            ("sample", sample, False),
+        ):
+            if (required or fn is not None) and not callable(fn):
+                raise ModelError(f"{label} must be a callable; got {type(fn).__name__}")
+        if vector_fields is None and action is None:
+            raise ModelError("give vector_fields(x) or action(g, x) (or both): the checks need the group's vector fields")
+        if action is not None and not algebra.is_matrix:
+            raise ModelError(
+                "action(g, x) needs group elements, but the algebra was declared by structure constants; "
+                "declare it with LieAlgebra.from_matrices or give vector_fields instead"
+            )
+
+        self.name = name
+        self.dim = int(dim)
+        self.algebra = algebra
+        self.convention = convention
+        self.derivatives = derivatives
+        self.form = form
+        self.moment = moment
+        self.vector_fields = vector_fields
+        self.action = action
+        self.sample = sample if sample is not None else (lambda rng: rng.standard_normal(self.dim))
+        self.source = _caller_file()
+        self.ops = AUTODIFF if derivatives == "autodiff" else FiniteDifferences()
+        self._validate()
+
+    # ------------------------------------------------------------- properties
+    @property
+    def has_action(self) -> bool:
+        return self.action is not None
+
+    @property
+    def traced(self) -> bool:
+        """True when the model is differentiated by jax (jit and vmap over points)."""
+        return self.ops.traced
+
+    def __repr__(self) -> str:
+        parts = [f"name={self.name!r}", f"dim={self.dim}", f"algebra dim={self.algebra.dim}"]
+        parts.append("action" if self.has_action else "vector fields")
+        if self.convention != Convention():
+            parts.append(f"sign={self.convention.sign}, flow={self.convention.flow}")
+        if not self.traced:
+            parts.append("finite differences")
+        return f"Model({', '.join(parts)})"
+
+    # --------------------------------------------- functions the checks call
+    def _asarray(self, value):
+        return jnp.asarray(value, dtype=jnp.float64) if not jnp.iscomplexobj(value) else jnp.asarray(value)
+
+    def form_at(self, x):
+        return jnp.asarray(self.form(self._arg(x)), dtype=jnp.float64)
+
+    def moment_at(self, x):
+        return jnp.asarray(self.moment(self._arg(x)), dtype=jnp.float64)
+
+    def action_at(self, g, x):
+        return jnp.asarray(self.action(self._arg(g), self._arg(x)), dtype=jnp.float64)
+
+    def action_fields_at(self, x):
+        """``flow * d/dt|0 action(exp(t e_a), x)`` for every basis element ``a``.
+
+        The derivative is taken along the matrix ``e_a`` at the identity, which
+        equals the derivative along ``exp(t e_a)`` and avoids differentiating
+        the matrix exponential (slow to compile, and not needed).
+        """
+        basis = self.algebra.basis
+        ident = np.eye(basis.shape[1], dtype=basis.dtype)
+        act = lambda g: self.action_at(g, x)  # noqa: E731
+        flow = self.convention.flow
+        if self.traced:
+            ident_j = jnp.asarray(ident)
+            rows = jax.vmap(lambda E: jax.jvp(act, (ident_j,), (E,))[1])(jnp.asarray(basis))
+        else:
+            rows = jnp.stack([self.ops.jvp(act, ident, E) for E in basis])
+        return flow * rows
+
+    def fields_at(self, x):
+        """The fundamental vector fields ``X_{e_a}(x)`` as an ``(algebra.dim, dim)`` array."""
+        if self.vector_fields is not None:
+            return jnp.asarray(self.vector_fields(self._arg(x)), dtype=jnp.float64)
+        return self.action_fields_at(x)
+
+    def _arg(self, x):
+        return x if self.traced else np.asarray(x)
+
+    # ------------------------------------------------------------ validation
+    def _validate(self) -> None:
+        rng = np.random.default_rng(0)
+        try:
+            x0 = np.asarray(self.sample(rng), dtype=float)
+        except Exception as exc:  # the user's function: report, do not crash
+            raise ModelError(f"sample(rng) raised {type(exc).__name__}: {exc}") from None
+        if x0.shape != (self.dim,):
+            raise ModelError(f"sample(rng) returned shape {x0.shape}; expected ({self.dim},) for dim={self.dim}")
+        if not np.all(np.isfinite(x0)):
+            raise ModelError(f"sample(rng) returned a non-finite point {x0}; expected a point of the chart's domain")
+        k, d = self.algebra.dim, self.dim
+        ident = np.eye(self.algebra.basis.shape[1], dtype=self.algebra.basis.dtype) if self.algebra.is_matrix else None
+        expected = {
+            "form": ((d, d), lambda x: self.form(x), f"for dim={d}"),
+            "moment": ((k,), lambda x: self.moment(x), f"for an algebra of dim {k}"),
+        }
+        if self.vector_fields is not None:
+            expected["vector_fields"] = ((k, d), lambda x: self.vector_fields(x), f"(algebra dim {k}, dim {d})")
+        if self.action is not None:
+            expected["action"] = ((d,), lambda x: self.action(self._eager_group(ident), x), f"for dim={d}")
+        call = {"form": "form(x)", "moment": "moment(x)", "vector_fields": "vector_fields(x)", "action": "action(g, x)"}
+        for label, (shape, fn, why) in expected.items():
+            try:
+                value = fn(x0)
+            except Exception as exc:
+                raise ModelError(
+                    f"{call[label]} raised {type(exc).__name__}: {exc} (at the sample point x = {np.array2string(x0, precision=4)})"
+                ) from None
+            if _shape(value) != shape:
+                raise ModelError(f"{call[label]} returned shape {_shape(value)}; expected {shape} {why}")
+            if np.iscomplexobj(np.asarray(value)) and np.any(np.imag(np.asarray(value)) != 0):
+                raise ModelError(f"{call[label]} returned complex values; expected a real array of shape {shape}")
+        if self.traced:
+            self._check_traceable(x0, ident, call)
+        # derived vector fields exercise exp and the action's derivative
+        if self.action is not None and self.vector_fields is None:
+            try:
+                X = np.asarray(self.fields_at(jnp.asarray(x0) if self.traced else x0))
+            except Exception as exc:
+                raise ModelError(
+                    f"deriving the vector fields from action(g, x) failed: {type(exc).__name__}: {exc}"
+                ) from None
+            if X.shape != (k, d):
+                raise ModelError(f"derived vector fields have shape {X.shape}; expected {(k, d)}")
+
+    def _eager_group(self, ident):
+        return jnp.asarray(ident) if self.traced else ident
+
+    def _check_traceable(self, x0, ident, call) -> None:
+        spec = jax.ShapeDtypeStruct((self.dim,), jnp.float64)
+        fns = {"form": self.form, "moment": self.moment}
+        if self.vector_fields is not None:
+            fns["vector_fields"] = self.vector_fields
+        if self.action is not None:
+            g = jnp.asarray(ident)
+            fns["action"] = lambda x: self.action(g, x)
+        for label, fn in fns.items():
+            try:
+                jax.eval_shape(fn, spec)
+            except Exception as exc:
+                first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+                raise ModelError(
+                    f"{call[label]} cannot be traced by jax ({type(exc).__name__}: {first[:160]}). "
+                    "Fix: write it with jax.numpy (import jax.numpy as jnp) instead of numpy/math, or "
+                    'declare Model(..., derivatives="finite-differences") to check it by finite '
+                    "differences with widened tolerances"
+                ) from None
