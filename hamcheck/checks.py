@@ -81,13 +81,21 @@ def antisymmetric(model, x, probe):
     return {"residual": _row_relative(W + W.T, W)}
 
 
-def closed_full(model, x, probe):
-    """``d omega`` from the full derivative tensor (small dim)."""
+def exterior_derivative(model, x):
+    """``(d omega)_ijk = d_i omega_jk + d_j omega_ki + d_k omega_ij`` and the bound of its terms.
+
+    >>> import hamcheck, numpy as np                      # doctest: +SKIP
+    >>> d_omega, scale = exterior_derivative(model, np.zeros(model.dim))  # doctest: +SKIP
+    """
     D = jnp.moveaxis(model.ops.jacobian(model.form_at, x), 2, 0)  # D[i,j,k] = d_i omega_jk
     A = D.transpose(1, 2, 0)
     B = D.transpose(2, 0, 1)
-    defect = D + A + B
-    scale = jnp.abs(D) + jnp.abs(A) + jnp.abs(B)
+    return D + A + B, jnp.abs(D) + jnp.abs(A) + jnp.abs(B)
+
+
+def closed_full(model, x, probe):
+    """``d omega`` from the full derivative tensor (small dim)."""
+    defect, scale = exterior_derivative(model, x)
     return {"residual": _row_relative(defect, scale)}
 
 

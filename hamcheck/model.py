@@ -71,12 +71,39 @@ class Convention:
 
 
 def _caller_file() -> str | None:
+    """The file that declares the model, for replay commands.
+
+    The nearest module-level frame (a model file being imported, possibly
+    through a helper that builds variants) wins; otherwise the nearest frame
+    outside hamcheck (a model built inside a function).
+    """
     here = os.path.dirname(os.path.abspath(__file__))
+    first = None
     for frame in inspect.stack()[2:]:
         path = os.path.abspath(frame.filename)
-        if not path.startswith(here) and not frame.filename.startswith("<"):
+        if path.startswith(here) or frame.filename.startswith("<"):
+            continue
+        if "site-packages" in path or path.startswith(os.path.dirname(os.__file__)):
+            break
+        first = first or path
+        if frame.function == "<module>":
             return path
-    return None
+    return first
+
+
+def _validate_domain(domain, dim):
+    """Per-coordinate bounds ``((lo, hi), ...)`` of a full-measure chart, infinite allowed."""
+    if domain is None:
+        return None
+    try:
+        box = np.asarray(domain, dtype=float)
+    except (TypeError, ValueError):
+        raise ModelError(f"domain must be per-coordinate bounds ((lo, hi), ...); got {domain!r}") from None
+    if box.shape != (dim, 2):
+        raise ModelError(f"domain has shape {box.shape}; expected ({dim}, 2): one (lo, hi) pair per coordinate")
+    if np.any(np.isnan(box)) or np.any(box[:, 0] >= box[:, 1]):
+        raise ModelError(f"domain bounds must satisfy lo < hi for every coordinate; got {box.tolist()}")
+    return tuple((float(lo), float(hi)) for lo, hi in box)
 
 
 def _shape(value) -> tuple:
@@ -123,6 +150,7 @@ class Model:
         sample=None,
         convention=Convention(),
         derivatives="autodiff",
+        domain=None,
     ):
         if not isinstance(name, str) or not name:
             raise ModelError(f"name must be a non-empty string; got {name!r}")
@@ -165,6 +193,9 @@ class Model:
         self.sample = sample if sample is not None else (lambda rng: rng.standard_normal(self.dim))
         self.source = _caller_file()
         self.ops = AUTODIFF if derivatives == "autodiff" else FiniteDifferences()
+        # Integration domain of the chart (used by hamcheck.localization and friends): per-coordinate
+        # bounds ((lo, hi), ...), infinite allowed, covering the manifold up to a set of measure zero.
+        self.domain = _validate_domain(domain, self.dim)
         self._validate()
 
     # ------------------------------------------------------------- properties

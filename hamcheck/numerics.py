@@ -104,11 +104,13 @@ TOLERANCES = Tolerances()
 FINITE_DIFFERENCE_TOLERANCES = Tolerances(
     antisymmetric=1e-12,  # no derivative involved
     closed=1e-8,
-    invariant=1e-8,
     moment_map=1e-8,
-    equivariance=1e-10,  # first derivatives of the action only
-    action=1e-7,  # second derivatives (vector-field brackets) by differences
-    group_equivariance=1e-10,
+    equivariance=1e-8,  # through vector fields that may themselves be differences of the action
+    # differences of vector fields that are themselves differences of the action (nested
+    # differences) lose about half the digits: 2e-8 measured on the numpy sphere
+    invariant=1e-6,
+    action=1e-6,
+    group_equivariance=1e-10,  # no derivative involved
     fit=1e-4,
     constant=1e-6,
 )

@@ -20,10 +20,23 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["CheckResult", "Finding", "Report", "SCHEMA_VERSION", "STATUSES"]
+__all__ = [
+    "CSV_COLUMNS",
+    "CheckResult",
+    "Finding",
+    "NOT_CHECKED",
+    "OUTCOME_STATUSES",
+    "Outcome",
+    "Report",
+    "RunReport",
+    "SCHEMA_VERSION",
+    "STATUSES",
+]
 
 SCHEMA_VERSION = 1
 STATUSES = ("pass", "fail", "error", "skip")
+#: Names under which faults of the model's own functions are reported.
+USER_FUNCTIONS = ("form", "moment", "vector_fields", "action", "sample")
 
 
 def _fmt(v) -> str:
@@ -82,6 +95,18 @@ class CheckResult:
             f"{_fmt(self.tolerance)}, points={self.points})"
         )
 
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "CheckResult":
+        def num(v):
+            return float(v) if v is not None else None  # "inf"/"nan" strings come back as floats
+
+        wp = data.get("worst_point")
+        return cls(
+            data["name"], data["status"], num(data.get("residual")), num(data.get("tolerance")),
+            None if wp is None else tuple(float(v) for v in wp), data.get("message", ""),
+            int(data.get("points", 0)), data.get("statement", ""), data.get("replay", ""),
+        )
+
     def to_dict(self) -> dict:
         return _plain(
             {
@@ -111,6 +136,10 @@ class Finding:
     def __repr__(self) -> str:
         return f"Finding({self.kind}: {self.message[:70]}{'...' if len(self.message) > 70 else ''})"
 
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "Finding":
+        return cls(data["kind"], data.get("message", ""), dict(data.get("data", {})), data.get("check", ""), data.get("replay", ""))
+
     def to_dict(self) -> dict:
         return _plain(
             {"kind": self.kind, "check": self.check, "message": self.message, "data": dict(self.data), "replay": self.replay}
@@ -135,20 +164,34 @@ class Report:
     findings: tuple[Finding, ...] = ()
     diagnoses: tuple[Finding, ...] = ()
     seconds: float = 0.0
+    convention: tuple[int, int] | None = None
 
     def __post_init__(self):
         object.__setattr__(self, "results", MappingProxyType(dict(self.results)))
         object.__setattr__(self, "findings", tuple(self.findings))
         object.__setattr__(self, "diagnoses", tuple(self.diagnoses))
+        if self.convention is not None:
+            c = self.convention
+            pair = (c.sign, c.flow) if hasattr(c, "sign") else tuple(c)
+            object.__setattr__(self, "convention", (int(pair[0]), int(pair[1])))
 
     @property
     def passed(self) -> bool:
-        """True when no check failed or errored (skipped checks say why in their message)."""
+        """True when no check failed or errored and every user function was finite at every sampled point.
+
+        Skipped checks say why in their message. A function returning NaN or
+        raising at a point of its own declared domain (``sample``) fails the
+        model even though the other points were checked.
+        """
+        if any(f.kind in ("non-finite", "raised") and f.check in USER_FUNCTIONS for f in self.findings):
+            return False
         return all(r.status in ("pass", "skip") for r in self.results.values())
 
     @property
     def failed_checks(self) -> tuple[str, ...]:
-        return tuple(n for n, r in self.results.items() if r.status in ("fail", "error"))
+        failed = [n for n, r in self.results.items() if r.status in ("fail", "error")]
+        faults = {f.check for f in self.findings if f.kind in ("non-finite", "raised") and f.check in USER_FUNCTIONS}
+        return tuple(failed + sorted(faults))
 
     def __repr__(self) -> str:
         counts = {s: sum(r.status == s for r in self.results.values()) for s in STATUSES}
@@ -191,7 +234,39 @@ class Report:
             "results": {n: r.to_dict() for n, r in self.results.items()},
             "findings": [f.to_dict() for f in self.findings],
             "diagnoses": [d.to_dict() for d in self.diagnoses],
+            "convention": None if self.convention is None else {"sign": self.convention[0], "flow": self.convention[1]},
         }
+
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "Report":
+        """Inverse of :meth:`to_dict` (numbers come back as Python floats and lists)."""
+        schema = data.get("schema")
+        if schema != SCHEMA_VERSION:
+            raise ValueError(f"report schema {schema!r} is not the supported version {SCHEMA_VERSION}")
+        conv = data.get("convention")
+        return cls(
+            model=data["model"],
+            source=data.get("source"),
+            seed=data["seed"],
+            points=data["points"],
+            derivatives=data.get("derivatives", ""),
+            results={n: CheckResult.from_dict(r) for n, r in data["results"].items()},
+            findings=tuple(Finding.from_dict(f) for f in data.get("findings", ())),
+            diagnoses=tuple(Finding.from_dict(f) for f in data.get("diagnoses", ())),
+            seconds=float(data.get("seconds", 0.0)),
+            convention=None if conv is None else (conv["sign"], conv["flow"]),
+        )
+
+    def explain(self, convention=None) -> str:
+        """Plain statements of each failing check, in the model's convention, with the numbers.
+
+        ``convention`` (a :class:`hamcheck.Convention` or ``(sign, flow)``)
+        defaults to the report's own; empty string when everything passed.
+        Meant to be handed back to whoever wrote the model.
+        """
+        from .explain import explain_report
+
+        return explain_report(self, convention if convention is not None else self.convention)
 
     def to_json(self, **kwargs) -> str:
         kwargs.setdefault("indent", 2)
@@ -212,3 +287,179 @@ class Report:
             out += ["", "Trust:", ""]
             out += [f"- {d.kind}: {d.message}" for d in self.diagnoses]
         return "\n".join(out) + "\n"
+
+
+# ------------------------------------------------------------------ runs
+#: statuses of one row of a run's summary; the last five mean "could not be checked"
+OUTCOME_STATUSES = ("pass", "fail", "load-error", "no-model", "timeout", "out-of-memory", "crashed")
+NOT_CHECKED = OUTCOME_STATUSES[2:]
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """One row of a run's summary: a model that was checked, or a file that could not be.
+
+    ``model`` is None for rows about a whole file (load errors, files that
+    define no model, a time limit hit while importing). ``findings`` are the
+    finding kinds; ``message`` one line saying what happened; ``replay`` the
+    command that reproduces the row.
+    """
+
+    file: str
+    model: str | None
+    status: str
+    failing_checks: tuple[str, ...] = ()
+    findings: tuple[str, ...] = ()
+    message: str = ""
+    replay: str = ""
+    seconds: float = 0.0
+
+    def __post_init__(self):
+        if self.status not in OUTCOME_STATUSES:
+            raise ValueError(f"outcome status {self.status!r} is not one of {OUTCOME_STATUSES}")
+        object.__setattr__(self, "failing_checks", tuple(self.failing_checks))
+        object.__setattr__(self, "findings", tuple(self.findings))
+
+    @classmethod
+    def of_report(cls, file: str, report: Report, note: str = "") -> "Outcome":
+        failing = report.failed_checks
+        replay = next((report.results[c].replay for c in failing if report.results[c].replay), "")
+        return cls(
+            file, report.model, "pass" if report.passed else "fail", failing,
+            tuple(sorted({f.kind for f in report.findings})), note, replay, round(report.seconds, 3),
+        )
+
+    def to_dict(self) -> dict:
+        return {
+            "file": self.file,
+            "model": self.model,
+            "status": self.status,
+            "failing_checks": list(self.failing_checks),
+            "findings": list(self.findings),
+            "message": self.message,
+            "replay": self.replay,
+            "seconds": self.seconds,
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "Outcome":
+        return cls(
+            data["file"], data.get("model"), data["status"], tuple(data.get("failing_checks", ())),
+            tuple(data.get("findings", ())), data.get("message", ""), data.get("replay", ""),
+            float(data.get("seconds", 0.0)),
+        )
+
+
+CSV_COLUMNS = ("file", "model", "status", "failing_checks", "findings", "message", "replay", "seconds")
+
+
+@dataclass(frozen=True)
+class RunReport:
+    """The result of one ``hamcheck check`` run over files: summary rows and the full reports.
+
+    ``exit_code`` is the command's exit status: 2 when some file or model
+    could not be checked (see :data:`NOT_CHECKED`), else 1 when some model
+    failed, else 0.
+    """
+
+    outcomes: tuple[Outcome, ...]
+    reports: tuple[Report, ...] = ()
+    options: Mapping = field(default_factory=dict)
+    seconds: float = 0.0
+
+    def __post_init__(self):
+        object.__setattr__(self, "outcomes", tuple(self.outcomes))
+        object.__setattr__(self, "reports", tuple(self.reports))
+        object.__setattr__(self, "options", dict(self.options))
+
+    @property
+    def counts(self) -> dict:
+        return {s: sum(o.status == s for o in self.outcomes) for s in OUTCOME_STATUSES}
+
+    @property
+    def exit_code(self) -> int:
+        if not self.outcomes or any(o.status in NOT_CHECKED for o in self.outcomes):
+            return 2
+        return 0 if all(o.status == "pass" for o in self.outcomes) else 1
+
+    # ---------------------------------------------------------------- text
+    def summary(self, width: int = 60) -> str:
+        """The on-screen table: file, model, result, failing checks, findings, note."""
+        head = ("file", "model", "result", "failing checks", "findings", "note")
+        rows = [
+            (
+                o.file, o.model or "-", o.status if o.status == "pass" else o.status.upper(),
+                ", ".join(o.failing_checks), ", ".join(o.findings), _clip(o.message, width),
+            )
+            for o in self.outcomes
+        ]
+        widths = [max([len(head[i])] + [len(r[i]) for r in rows]) for i in range(len(head))]
+
+        def line(r):
+            return "  ".join(str(c).ljust(w) for c, w in zip(r, widths)).rstrip()
+
+        c = self.counts
+        tail = [f"{c['pass']} of {len(self.outcomes)} passed"]
+        if c["fail"]:
+            tail.append(f"{c['fail']} failed")
+        not_checked = sum(c[s] for s in NOT_CHECKED)
+        if not_checked:
+            tail.append(f"{not_checked} could not be checked")
+        return "\n".join(["summary", line(head), line(tuple("-" * w for w in widths))] + [line(r) for r in rows] + ["; ".join(tail)])
+
+    # ------------------------------------------------------------- machine
+    def to_dict(self) -> dict:
+        from . import __version__
+
+        return {
+            "schema": SCHEMA_VERSION,
+            "kind": "run",
+            "hamcheck": __version__,
+            "options": _plain(self.options),
+            "seconds": round(self.seconds, 3),
+            "counts": self.counts,
+            "exit_code": self.exit_code,
+            "outcomes": [o.to_dict() for o in self.outcomes],
+            "reports": [r.to_dict() for r in self.reports],
+        }
+
+    def to_json(self, **kwargs) -> str:
+        kwargs.setdefault("indent", 2)
+        return json.dumps(self.to_dict(), **kwargs)
+
+    def to_csv(self) -> str:
+        """One line per outcome, columns :data:`CSV_COLUMNS`; lists joined with ``;``."""
+        import csv
+        import io
+
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(CSV_COLUMNS)
+        for o in self.outcomes:
+            d = o.to_dict()
+            w.writerow([";".join(v) if isinstance(v, list) else ("" if v is None else v) for v in (d[k] for k in CSV_COLUMNS)])
+        return buf.getvalue()
+
+    def to_markdown(self, explain: bool = False) -> str:
+        """Summary table, then every report; with ``explain`` the explanations of failing checks."""
+        c = self.counts
+        out = ["# hamcheck results", "", f"{c['pass']} of {len(self.outcomes)} passed.", ""]
+        out += ["| file | model | result | failing checks | findings | note |", "|---|---|---|---|---|---|"]
+        for o in self.outcomes:
+            cells = (o.file, o.model or "-", o.status, ", ".join(o.failing_checks), ", ".join(o.findings), o.message)
+            out.append("| " + " | ".join(_md_cell(x) for x in cells) + " |")
+        for r in self.reports:
+            out += ["", r.to_markdown().rstrip()]
+            text = r.explain() if explain else ""
+            if text:
+                out += ["", "```text", text, "```"]
+        return "\n".join(out) + "\n"
+
+
+def _clip(text: str, width: int) -> str:
+    text = " ".join(str(text).split())
+    return text if len(text) <= width else text[: width - 3] + "..."
+
+
+def _md_cell(text) -> str:
+    return " ".join(str(text).split()).replace("|", "\\|")
