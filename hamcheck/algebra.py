@@ -211,4 +211,4 @@ class LieAlgebra:
         import scipy.linalg
 
         xs = self.random_elements(rng, n, scale)
-        return np.stack([scipy.linalg.expm(np.einsum("a,aij->ij", xi, self.basis)) for xi in xs])
+        return scipy.linalg.expm(np.einsum("na,aij->nij", xs, self.basis))  # expm maps over the stack

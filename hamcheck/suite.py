@@ -150,10 +150,14 @@ def _run_traced(model, kernels, xs, probes, settings):
             return {nm: kernels[nm](model, x, pr.get(nm, {})) for nm in names}
 
         args = (xs_j, {nm: probes_j.get(nm, {}) for nm in names})
-        fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
-        lowered = fn.lower(*args)
-        compiled = lowered.compile(FAST_COMPILE if settings.fast_compile else None)
-        out = compiled(*args)
+        # one compiled program per model and layout: re-checking with another seed reuses it
+        shapes = jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), args)
+        key = (tuple(names), batch, settings.fast_compile, str(shapes))
+        cache = model.__dict__.setdefault("_compiled_checks", {})
+        if key not in cache:
+            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
+            cache[key] = fn.lower(*args).compile(FAST_COMPILE if settings.fast_compile else None)
+        out = cache[key](*args)
         return jax.tree_util.tree_map(lambda a: np.asarray(a)[:n], out)
 
     try:
@@ -426,11 +430,16 @@ def _search_degenerate(model, pts, r, out, settings):
     typical = float(np.median(out["smax"]))
     lo, hi = pts.min(axis=0), pts.max(axis=0)
     if model.traced:
-        def ratio(x):
-            s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
-            return s[-1] / jnp.maximum(jnp.maximum(s[0], typical), 1e-300)
+        cache = model.__dict__.setdefault("_compiled_checks", {})
+        if "search" not in cache:
+            # the typical scale is an argument, so the program is reused across calls
+            def ratio_t(x, t):
+                s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
+                return s[-1] / jnp.maximum(jnp.maximum(s[0], t), 1e-300)
 
-        fun = jax.jit(jax.value_and_grad(ratio))
+            cache["search"] = jax.jit(jax.value_and_grad(ratio_t))
+        grad_fn = cache["search"]
+        fun = lambda x: grad_fn(x, typical)  # noqa: E731
 
         def objective(x):
             v, g = fun(jnp.asarray(x))
