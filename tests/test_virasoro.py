@@ -210,7 +210,9 @@ def test_constant_representative_recovered_from_a_moved_constant(T0):
 
 def test_no_constant_on_hyperbolic_orbits_with_winding():
     # hyperbolic monodromy with rotation number 1/2 (a potential well below n = 1 resonance): no constant
-    q = circle.Periodic.from_real_modes([2], [0.6], [0.0], a0=0.25)  # Mathieu-type, inside the first gap
+    # T = 1/4 + 0.6 cos(theta): parametric resonance at k = 1/2 (from memory: the first instability
+    # tongue of Hill's equation), monodromy hyperbolic with negative eigenvalues
+    q = circle.Periodic.from_real_modes([1], [0.6], [0.0], a0=0.25)
     inv = virasoro.classify(q, 1.0)
     assert inv["class"] == "hyperbolic" and inv["rotation_number"] == 0.5
     assert inv["constant_representative"] is None
@@ -249,11 +251,11 @@ def test_developing_map_from_T_is_a_moebius_image_of_the_original():
 # ---------------------------------------------------------------- orbit models
 @functools.cache
 def chart():
-    return virasoro.orbit_model(0.1, 1.0, [1, 2, 3])
+    return virasoro.orbit_model(0.1, 1.0, [1, 2])
 
 
 def test_orbit_model_passes_every_check():
-    report = hamcheck.check(chart(), points=4, settings=hamcheck.Settings(search_starts=0))
+    report = hamcheck.check(chart(), points=3, settings=hamcheck.Settings(search_starts=0))
     assert report.passed, str(report)
     for name in ("closed", "moment_map", "antisymmetric", "equivariance", "group_equivariance"):
         assert report.results[name].status == "pass"
@@ -266,7 +268,7 @@ def test_kks_mode_formula_at_the_base_point():
     model = chart()
     W = np.asarray(model.form(jnp.zeros(model.dim)))
     T0, c = 0.1, 1.0
-    for i, m in enumerate([1, 2, 3]):
+    for i, m in enumerate([1, 2]):
         lam = m * (c * m * m - 4 * T0) / 2
         tangent_value = W[2 * i, 2 * i + 1] / lam**2  # omega(sin/lam, -cos/lam) -> omega(cos, sin)
         assert tangent_value == pytest.approx(2 * np.pi / (m * (c * m * m - 4 * T0)), rel=1e-13)
@@ -278,15 +280,15 @@ def test_negative_controls_caught_by_named_checks():
     S = virasoro.schwarzian_from_derivatives
     only = ["closed"]
     # F' instead of F'^2 -> closed (virasoro.md: residuals 2e-2 to 1)
-    m1 = virasoro.orbit_model(0.1, 1.0, [1, 2, 3], transform=lambda T0F, F1, F2, F3, c: T0F * F1 + 0.5 * c * S(F1, F2, F3))
-    r1 = hamcheck.check(m1, points=3, only=only).results["closed"]
+    m1 = virasoro.orbit_model(0.1, 1.0, [1, 2], grid=48, transform=lambda T0F, F1, F2, F3, c: T0F * F1 + 0.5 * c * S(F1, F2, F3))
+    r1 = hamcheck.check(m1, points=2, only=only).results["closed"]
     assert r1.status == "fail" and r1.residual > 1e-4
     # missing 1/F' in the tangent map -> closed
-    m2 = virasoro.orbit_model(0.1, 1.0, [1, 2, 3], tangent=lambda dF, F1: dF)
-    r2 = hamcheck.check(m2, points=3, only=only).results["closed"]
+    m2 = virasoro.orbit_model(0.1, 1.0, [1, 2], grid=48, tangent=lambda dF, F1: dF)
+    r2 = hamcheck.check(m2, points=2, only=only).results["closed"]
     assert r2.status == "fail" and r2.residual > 1e-4
     # wrong Schwarzian coefficient (c/12): another valid orbit, caught by kks_base_form
-    m3 = virasoro.orbit_model(0.1, 1.0, [1, 2, 3], transform=lambda T0F, F1, F2, F3, c: T0F * F1**2 + c / 12 * S(F1, F2, F3))
+    m3 = virasoro.orbit_model(0.1, 1.0, [1, 2], grid=48, transform=lambda T0F, F1, F2, F3, c: T0F * F1**2 + c / 12 * S(F1, F2, F3))
     assert virasoro.base_form_check(m3).status == "fail"
     # opposite bracket sign: caught by the cocycle check's action (test_cocycles has the details)
     alg = virasoro.truncated_algebra(6, 1.0)
@@ -326,9 +328,10 @@ def test_bad_arguments():
 @pytest.mark.slow
 def test_resolution_study_converges_and_a_wrong_chart_stalls(tmp_path):
     # virasoro.md: residuals fall geometrically with the quadrature grid; a wrong formula does not
-    good = virasoro.chart_resolution_study(0.1, 1.0, [1, 2], [16, 24, 32, 48], points=2)
+    # antisymmetry (exact integration by parts) is the cheapest residual that sees the quadrature
+    good = virasoro.chart_resolution_study(0.1, 1.0, [1, 2], [12, 24, 48], check="antisymmetric", points=2)
     assert good.verdict == "converges" and good.residuals[-1] < 1e-13
-    bad = virasoro.chart_resolution_study(0.1, 1.0, [1, 2], [24, 32, 48], points=2, tangent=lambda dF, F1: dF)
+    bad = virasoro.chart_resolution_study(0.1, 1.0, [1, 2], [24, 48], check="antisymmetric", points=2, tangent=lambda dF, F1: dF)
     assert bad.verdict == "stalls"
     good.plot(tmp_path / "closed.png")
     assert (tmp_path / "closed.png").exists()
@@ -344,8 +347,9 @@ def test_rotation_weights_at_the_sl2_point():
 
 def test_zeta_values_and_regularised_product():
     # virasoro.md / mpmath: zeta(0) - 1 = -3/2, -zeta'(0) = log sqrt(2 pi), prod = t^{3/2}/(2pi)^2 to 20 digits
-    assert mpmath.zeta(0) - 1 == -1.5
-    assert mpmath.almosteq(-mpmath.zeta(0, derivative=1), mpmath.log(mpmath.sqrt(2 * mpmath.pi)), 1e-25)
+    with mpmath.workdps(30):
+        assert mpmath.zeta(0) - 1 == -1.5
+        assert mpmath.almosteq(-mpmath.zeta(0, derivative=1), mpmath.log(mpmath.sqrt(2 * mpmath.pi)), 1e-25)
     for t in (0.5, 1.0, 3.0):
         reg, closed = virasoro.zeta_one_loop(t)
         assert mpmath.almosteq(reg, closed, 1e-20)
