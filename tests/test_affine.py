@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import functools
 import json
-import warnings
 
 import numpy as np
 import pytest
@@ -78,7 +77,7 @@ def test_su2_coordinate_formulas_match_matrices_and_are_smooth_at_zero():
     # second derivative of dexp at 0 along (u, u): d^2/dt^2 dexp(tu) y = 2 * (1/6) u x (u x y)
     u, y = np.array([0.3, -0.2, 0.5]), np.array([1.0, 0.4, -0.7])
     f = lambda t: af.su2_dexp(t * u, y)  # noqa: E731
-    second = np.asarray(jax.jacfwd(jax.jacfwd(f))(0.0))
+    second = np.asarray(jax.jit(jax.jacfwd(jax.jacfwd(f)))(0.0))
     assert np.all(np.isfinite(second))
     assert np.allclose(second, np.cross(u, np.cross(u, y)) / 3, rtol=1e-12, atol=1e-15)
 
@@ -284,13 +283,12 @@ def test_orbit_model_passes_every_check():
     [
         # affine.md: g^-1 d_i g instead of (d_i g) g^-1 fails (0.31 there)
         (af.ChartFormulas(trivialization="left"), "closed", "not-closed"),
-        # flipped sign of c g' g^-1: closed (level -c orbit) but H_rot carries 1/c
-        (af.ChartFormulas(action_sign=-1), "moment_map", None),
+        # (flipped sign of c g' g^-1: see test_flipped_level_in_the_chart_is_caught_by_the_moment_check)
         # (the cocycle coefficient 2c is caught by moment_map in test_wrong_cocycle_is_closed_...)
         # overall sign of the form
         (af.ChartFormulas(form_sign=-1), "moment_map", "moment-sign"),
     ],
-    ids=["left-trivialization", "flipped-level", "form-sign"],
+    ids=["left-trivialization", "form-sign"],
 )
 def test_negative_controls_of_the_chart_are_caught_by_a_named_check(formulas, check, kind):
     m = af.orbit_model(0.3, 1.0, 1, grid=32, formulas=formulas)
@@ -354,6 +352,15 @@ def test_wrong_cocycle_is_closed_but_the_moment_check_stalls():
     assert not s.verified and "closed and wrong" in s.verdict
 
 
+def test_flipped_level_in_the_chart_is_caught_by_the_moment_check():
+    # affine.md: g A0 g^-1 - c g' g^-1 is the level -c orbit: closed, but H_rot = (1/2c) int <A, A>
+    # carries 1/c, so the moment equation fails (same compiled study as above: formulas are runtime values)
+    f = af.ChartFormulas(action_sign=-1)
+    s = af.orbit_resolution_study(0.3, 1.0, 1, grids=(4, 8, 12, 16, 24), checks=("closed", "moment_map"), points=2, formulas=f)
+    assert s.studies["closed"].residuals[-1] <= 1e-12
+    assert s.studies["moment_map"].residuals[-1] > 0.1 and not s.verified
+
+
 def test_closedness_alone_never_verifies_a_form():
     # the trap: without the moment checks the study must not say "verified", even when closed
     s = study_2c()
@@ -401,7 +408,7 @@ def test_classify_files_in_every_input_form(tmp_path):
         "import numpy as np\nc = 1.0\ndef A(t):\n    return np.stack([0 * t, 0 * t, 0.35 + 0 * t], axis=-1)\n"
     )
     for name, c in (("rim.npy", 1.0), ("rim.csv", 1.0), ("rim.py", None)):
-        d = af.classify_file(tmp_path / name, c)
+        d = af.classify_file(tmp_path / name, c, M=64)
         # affine.md: trace 2 cos(pi a / c) is a gauge invariant
         assert d["trace"].real == pytest.approx(2 * np.cos(0.35 * np.pi), abs=1e-12)
         assert d["a"] == pytest.approx(0.35, abs=1e-12)
