@@ -1,13 +1,18 @@
-"""Results as frozen dataclasses, and their renderings (text, JSON, Markdown).
+"""Results as frozen dataclasses, and their renderings (text, JSON, Markdown, CSV).
 
-The JSON layout is versioned by :data:`SCHEMA_VERSION`; ``tests/test_report.py``
-pins it. Add fields freely; renaming or removing one bumps the version.
+* :class:`CheckResult`, :class:`Finding`, :class:`Report`: one model's check;
+* :class:`Outcome`, :class:`RunReport`: one row per model or unloadable file
+  of a ``hamcheck check`` run, and the run itself (summary table, exit code).
+
+The JSON layout is versioned by :data:`SCHEMA_VERSION` and documented in
+``docs/report-schema.md``; ``tests/test_report.py`` pins it. Add fields
+freely; renaming or removing one bumps the version.
 
 Example
 -------
 >>> from hamcheck.report import CheckResult
 >>> CheckResult("closed", "pass", 3e-16, 1e-12, None, "d omega = 0 at 32 points", 32)
-CheckResult(closed: pass, residual=3e-16 <= 1e-12, points=32)
+CheckResult(closed: pass, residual=3.0e-16 <= 1.0e-12, points=32)
 """
 
 from __future__ import annotations
@@ -323,7 +328,9 @@ class Outcome:
     @classmethod
     def of_report(cls, file: str, report: Report, note: str = "") -> "Outcome":
         failing = report.failed_checks
-        replay = next((report.results[c].replay for c in failing if report.results[c].replay), "")
+        replays = [report.results[c].replay for c in failing if c in report.results]
+        replays += [f.replay for f in report.findings if f.check in failing]  # faults of user functions
+        replay = next((r for r in replays if r), "")
         return cls(
             file, report.model, "pass" if report.passed else "fail", failing,
             tuple(sorted({f.kind for f in report.findings})), note, replay, round(report.seconds, 3),
@@ -383,7 +390,7 @@ class RunReport:
         return 0 if all(o.status == "pass" for o in self.outcomes) else 1
 
     # ---------------------------------------------------------------- text
-    def summary(self, width: int = 60) -> str:
+    def summary(self, width: int = 64) -> str:
         """The on-screen table: file, model, result, failing checks, findings, note."""
         head = ("file", "model", "result", "failing checks", "findings", "note")
         rows = [

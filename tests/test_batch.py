@@ -37,26 +37,28 @@ def plane(name, sample=None):
 '''
 
 ISOLATED = {
-    "a_aborts.py": "import os\nos.abort()\n",
-    # the model's name records the address-space limit the child runs under
-    "b_good.py": PLANE + "import resource\ngood = plane(f'good-as-{resource.getrlimit(resource.RLIMIT_AS)[0]}')\n",
-    "c_hog.py": "chunks = []\nwhile True:\n    chunks.append(bytearray(2**28))\n",
-    "d_raises.py": "import missing_module_of_a_student\n",
-    "e_syntax.py": "def f(:\n",
-    # the two hanging files are adjacent so that, with --jobs 2, their time limits run concurrently
-    "h1_hangs.py": "while True:\n    pass\n",
-    "h2_partial.py": PLANE + '''
+    # the two hanging files sort first so that their time limits run while the other files are checked;
+    # they sleep rather than spin so that they leave the CPU to the others
+    "a_hangs.py": "import time\nwhile True:\n    time.sleep(0.5)\n",
+    "b_partial.py": PLANE + '''
 quick = plane("quick")
 calls = []
 def stuck_sample(rng):  # the declaration's one call returns; the check's calls never do
+    import time
     calls.append(1)
     while len(calls) > 1:
-        pass
+        time.sleep(0.5)
     return rng.standard_normal(2)
 stuck = plane("stuck", sample=stuck_sample)
 ''',
+    "c_aborts.py": "import os\nos.abort()\n",
+    # the model's name records the address-space limit the child runs under
+    "d_good.py": PLANE + "import resource\ngood = plane(f'good-as-{resource.getrlimit(resource.RLIMIT_AS)[0]}')\n",
+    "e_hog.py": "chunks = []\nwhile True:\n    chunks.append(bytearray(2**28))\n",
+    "f_raises.py": "import missing_module_of_a_student\n",
+    "g_syntax.py": "def f(:\n",
 }
-TIMEOUT = 30  # seconds; a child needs ~3-8 s to import jax on a loaded 2-core machine
+TIMEOUT = 30  # seconds; a child needs ~3-8 s to import jax and ~2-5 s per small check on a loaded 2-core machine
 
 
 @pytest.fixture(scope="module")
@@ -66,14 +68,14 @@ def isolated(tmp_path_factory):
     folder.mkdir()
     for name, text in ISOLATED.items():
         (folder / name).write_text(text)
-    with open(os.path.join(os.fsencode(folder), b"f_na\xefve.py"), "w") as f:  # not UTF-8
+    with open(os.path.join(os.fsencode(folder), b"h_na\xefve.py"), "w") as f:  # not UTF-8
         f.write("raise KeyError('latin-1 file name')\n")
     out = tmp / "run"
     old_err, sys.stderr = sys.stderr, io.StringIO()
     old_out, sys.stdout = sys.stdout, io.StringIO()
     try:
         code = main([
-            "check", str(folder), "--isolate", "--jobs", "2", "--timeout", str(TIMEOUT),
+            "check", str(folder), "--isolate", "--jobs", "4", "--timeout", str(TIMEOUT),
             "--only", "antisymmetric", "moment_map", "--points", "4",
             "--json", f"{out}.json", "--csv", f"{out}.csv", "--quiet",
         ])
@@ -90,39 +92,39 @@ def isolated(tmp_path_factory):
 def test_isolated_run_exit_code_and_every_file_has_a_row(isolated):
     code, _, _, data, by_file = isolated
     assert code == 2
-    assert sorted(by_file) == sorted(list(ISOLATED) + ["f_na\\xefve.py"])
+    assert sorted(by_file) == sorted(list(ISOLATED) + ["h_na\\xefve.py"])
     assert data["options"]["isolate"] is True
 
 
 def test_good_file_passes_under_the_default_memory_limit(isolated):
-    (row,) = isolated[4]["b_good.py"]
+    (row,) = isolated[4]["d_good.py"]
     assert row["status"] == "pass"
     # the child really ran under RLIMIT_AS = the default, and jax worked there
     assert row["model"] == f"good-as-{int(DEFAULT_MEMORY_GB * 2**30)}"
 
 
 def test_file_raising_at_import_is_a_load_error(isolated):
-    (row,) = isolated[4]["d_raises.py"]
+    (row,) = isolated[4]["f_raises.py"]
     assert row["status"] == "load-error"
     assert "ModuleNotFoundError" in row["message"] and "missing_module_of_a_student" in row["message"]
-    (row,) = isolated[4]["f_na\\xefve.py"]  # the child found the file from its non-UTF-8 name
+    (row,) = isolated[4]["h_na\\xefve.py"]  # the child found the file from its non-UTF-8 name
     assert row["status"] == "load-error" and "KeyError" in row["message"]
 
 
 def test_syntax_error_is_found_without_running_the_file(isolated):
-    (row,) = isolated[4]["e_syntax.py"]
+    (row,) = isolated[4]["g_syntax.py"]
     assert row["status"] == "load-error" and row["message"].startswith("line 1: syntax error")
 
 
 def test_file_that_loops_forever_at_import_times_out(isolated):
-    (row,) = isolated[4]["h1_hangs.py"]
+    (row,) = isolated[4]["a_hangs.py"]
     assert row["status"] == "timeout" and row["model"] is None
     assert f"time limit of {TIMEOUT} s reached while importing the file" == row["message"]
     assert "--isolate --timeout" in row["replay"]
 
 
 def test_model_that_hangs_while_checked_times_out_and_earlier_results_are_kept(isolated):
-    rows = {r["model"]: r for r in isolated[4]["h2_partial.py"]}
+    rows = {r["model"]: r for r in isolated[4]["b_partial.py"]}
     assert rows["quick"]["status"] == "pass"
     assert rows["stuck"]["status"] == "timeout"
     assert rows["stuck"]["message"].endswith("while checking this model")
@@ -130,20 +132,20 @@ def test_model_that_hangs_while_checked_times_out_and_earlier_results_are_kept(i
 
 
 def test_file_that_allocates_without_bound_runs_out_of_memory(isolated):
-    (row,) = isolated[4]["c_hog.py"]
+    (row,) = isolated[4]["e_hog.py"]
     # without the limit this file would grow until the time limit (bytearray pages are not touched)
     assert row["status"] == "out-of-memory", row
 
 
 def test_file_that_kills_the_interpreter_is_reported_as_crashed(isolated):
-    (row,) = isolated[4]["a_aborts.py"]
+    (row,) = isolated[4]["c_aborts.py"]
     assert row["status"] == "crashed" and "SIGABRT" in row["message"]
 
 
 def test_isolated_summary_and_progress(isolated):
     _, stdout, stderr, data, _ = isolated
     assert "TIMEOUT" in stdout and "OUT-OF-MEMORY" in stdout and "CRASHED" in stdout
-    assert stdout.splitlines()[-1] == "2 of 10 passed; 8 could not be checked"  # good + quick
+    assert stdout.splitlines()[-1] == "2 of 9 passed; 7 could not be checked"  # good + quick
     assert "[1/8]" in stderr and "[8/8]" in stderr
     assert data["counts"]["timeout"] == 2
 
@@ -173,9 +175,9 @@ def test_progress_on_a_terminal_rewrites_one_line():
     p = Progress(3, stream=stream)
     for i in range(1, 4):
         p.step(i, f"file{i}.py")
-    p.done()
+    p.done()  # clears the line: "\r", blanks, "\r"
     text = stream.getvalue()
-    assert "\n" not in text and text.count("\r") == 4 and "[3/3] file3.py" in text
+    assert "\n" not in text and text.count("\r") == 3 + 2 and "[3/3] file3.py" in text
 
 
 def test_progress_off_writes_nothing():
@@ -202,7 +204,20 @@ def test_load_models_sets_source_to_the_file_checked_and_imports_siblings(tmp_pa
     (model,) = load_models(tmp_path / "student.py")
     assert model.name == "mine" and model.source == str(tmp_path / "student.py")
     assert not (tmp_path / "__pycache__").exists()  # nothing written into the user's folder
-    assert str(tmp_path) not in sys.path
+    assert str(tmp_path) not in sys.path and "_shared" not in sys.modules
+
+
+def test_helpers_of_the_same_name_in_two_folders_do_not_mix(tmp_path):
+    for course in ("one", "two"):
+        (tmp_path / course).mkdir()
+        (tmp_path / course / "_starter.py").write_text(f"COURSE = {course!r}\n")
+        (tmp_path / course / "hw.py").write_text("from _starter import COURSE\nraise RuntimeError(COURSE)\n")
+    messages = []
+    for course in ("one", "two"):
+        with pytest.raises(LoadError) as info:
+            load_models(tmp_path / course / "hw.py")
+        messages.append(info.value.reason)
+    assert messages == ["raised RuntimeError at import: one", "raised RuntimeError at import: two"]
 
 
 def test_load_models_reports_memory_errors_and_exits(tmp_path):

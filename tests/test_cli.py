@@ -77,7 +77,8 @@ def folder_run(tmp_path_factory):
     sys.stdout, sys.stderr = io.StringIO(), io.StringIO()
     try:
         code = main([
-            "check", str(folder), "--points", "6", "--explain",
+            # two checks suffice for what is tested here (and each check adds compile time)
+            "check", str(folder), "--points", "6", "--explain", "--only", "antisymmetric", "moment_map",
             "--json", f"{out}.json", "--csv", f"{out}.csv", "--markdown", f"{out}.md",
         ])
         stdout, stderr = sys.stdout.getvalue(), sys.stderr.getvalue()
@@ -142,7 +143,11 @@ def test_summary_and_explanations_on_stdout(folder_run):
     assert "summary" in stdout and "moment-sign" in stdout
     assert "Why signflip fails" in stdout
     assert "with sign = +1: X_a^i omega_ij = d_j mu_a" in stdout  # the default convention substituted
-    assert "1 of" not in stdout.splitlines()[-1] or "could not be checked" in stdout.splitlines()[-1]
+    # good and the two twins pass, signflip fails; whether fragile (a user function raising at some
+    # points) passes is the suite's policy, so the expected line is built from its status
+    fragile = next(o["status"] for o in folder_run[3]["outcomes"] if o["model"] == "fragile")
+    passed, failed = (4, 1) if fragile == "pass" else (3, 2)
+    assert stdout.splitlines()[-1] == f"{passed} of 9 passed; {failed} failed; 4 could not be checked"
 
 
 def test_csv_has_one_line_per_outcome(folder_run):
