@@ -17,10 +17,19 @@ from .model import Convention, Model
 from .numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
 from .report import CheckResult, Finding, Report
 from .suite import Settings, check
+from .orbits import coadjoint_orbit
+from .consequences import fixed_points, flow, lattice_count, localization, moment_image, reduce
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "coadjoint_orbit",
+    "fixed_points",
+    "flow",
+    "lattice_count",
+    "localization",
+    "moment_image",
+    "reduce",
     "CHECK_NAMES",
     "CheckResult",
     "Convention",

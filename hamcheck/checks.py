@@ -273,6 +273,88 @@ def _needs_action(model, settings):
     return None
 
 
+# -------------------------------------------------------------------- flow
+#: RK4 steps of the flow check over an arc of FLOW_ANGLE (|t xi| in matrix norm):
+#: truncation error ~ (FLOW_ANGLE / FLOW_STEPS)^5 / 120 per step, about 1e-13.
+FLOW_STEPS = 8
+FLOW_ANGLE = 0.05
+#: Singular values of ad_xi below this (relative) span the centralizer of xi.
+FLOW_CENTRALIZER_RTOL = 1e-9
+
+
+def _hamiltonian_field(model, y, xi):
+    """``v`` with ``v^i omega_ij = sign d_j <mu, xi>`` (from the form and moment only)."""
+    dH = jax.grad(lambda z: model.moment_at(z) @ xi)(y)
+    return jnp.linalg.solve(model.form_at(y).T, model.convention.sign * dH)
+
+
+def flow(model, x, probe):
+    """The Hamiltonian flow of ``<mu, xi>`` (RK4 inside jit) vs ``action(exp(flow t xi), x)``.
+
+    Also: the Hamiltonian vector field equals ``X_xi``, and the moment
+    components commuting with ``xi`` are conserved along the integrated arc.
+    """
+    xi, t = probe["xi"], probe["t"]
+    X = xi @ model.fields_at(x)
+    v = _hamiltonian_field(model, x, xi)
+    field = _row_relative(v - X, jnp.abs(v) + jnp.abs(X))
+    h = t / FLOW_STEPS
+
+    def rk4(_, y):
+        f = lambda z: _hamiltonian_field(model, z, xi)  # noqa: E731
+        k1 = f(y)
+        k2 = f(y + 0.5 * h * k1)
+        k3 = f(y + 0.5 * h * k2)
+        k4 = f(y + h * k3)
+        return y + (h / 6.0) * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
+
+    # unrolled on purpose: a while loop with linear solves inside the one vmapped program of
+    # check() deadlocked XLA's CPU runtime (seen with jaxlib 0.10.2 on CP^8)
+    y = x
+    for i in range(FLOW_STEPS):
+        y = rk4(i, y)
+    ahead = model.action_at(probe["ahead"], x)
+    behind = model.action_at(probe["behind"], x)
+    size = jnp.maximum(jnp.maximum(jnp.max(jnp.abs(x)), jnp.max(jnp.abs(y))), TINY)
+    along = jnp.max(jnp.abs(y - ahead)) / jnp.maximum(size, jnp.max(jnp.abs(ahead)))
+    against = jnp.max(jnp.abs(y - behind)) / jnp.maximum(size, jnp.max(jnp.abs(behind)))
+    ad = jnp.einsum("a,abc->cb", xi, jnp.asarray(model.algebra.structure_constants))
+    _, s, vt = jnp.linalg.svd(ad)
+    keep = (s <= FLOW_CENTRALIZER_RTOL * jnp.maximum(s[0], TINY)).astype(x.dtype)
+    mu0, mu1 = model.moment_at(x), model.moment_at(y)
+    drift = (vt.T * keep) @ (vt @ (mu1 - mu0))
+    conserved = jnp.max(jnp.abs(drift)) / jnp.maximum(jnp.maximum(jnp.max(jnp.abs(mu0)), jnp.max(jnp.abs(mu1))), TINY)
+    return {
+        "residual": jnp.max(jnp.stack([field, along, conserved])),
+        "field": field,
+        "along": along,
+        "against": against,
+        "conserved": conserved,
+    }
+
+
+def _flow_probes(model, rng, n, settings):
+    import numpy as _np
+
+    import scipy.linalg
+
+    xi = rng.standard_normal((n, model.algebra.dim))
+    xi /= _np.linalg.norm(xi, axis=1, keepdims=True)
+    mats = _np.einsum("na,aij->nij", xi, model.algebra.basis)
+    t = FLOW_ANGLE / _np.maximum(_np.linalg.norm(mats, 2, axis=(1, 2)), 1e-300)
+    # exp(+-flow t xi) in numpy (the matrix exponential is slow to compile and not differentiated here)
+    step = model.convention.flow * t[:, None, None] * mats
+    return {"xi": xi, "t": t, "ahead": scipy.linalg.expm(step), "behind": scipy.linalg.expm(-step)}
+
+
+def _needs_flow(model, settings):
+    if not model.has_action:
+        return "no finite action declared (give action(g, x) to compare the Hamiltonian flow with exp(t xi).x)"
+    if not model.traced:
+        return "the flow check integrates inside jax; not available with finite differences"
+    return None
+
+
 # ---------------------------------------------------------------- registry
 CHECKS: tuple[Check, ...] = (
     Check("antisymmetric", "omega_ij = -omega_ji: the form matrix is antisymmetric", antisymmetric),
@@ -312,6 +394,14 @@ CHECKS: tuple[Check, ...] = (
         group_equivariance,
         probes=_group_probes,
         applies=_needs_action,
+    ),
+    Check(
+        "flow",
+        "the Hamiltonian flow of <mu, xi> (v^i omega_ij = sign d_j <mu, xi>) is exp(flow t xi).x, and conserves "
+        "the moment components commuting with xi",
+        flow,
+        probes=_flow_probes,
+        applies=_needs_flow,
     ),
 )
 

@@ -36,6 +36,7 @@ FINDING_KINDS = (
     "not-antisymmetric",
     "non-finite",
     "raised",
+    "flow-sign",
 )
 
 
@@ -269,6 +270,33 @@ def group_equivariance(ev: Evidence):
     return f"mu(g.x) != Ad*_g mu(x) (relative {ev.residual[ev.worst]:.1e} {_at(ev)})", []
 
 
+def flow(ev: Evidence):
+    if not ev.failed:
+        return "", []
+    out, tol = ev.out, ev.tolerance
+    conv = ev.model.convention
+    if np.max(out["field"]) > tol:
+        return (
+            f"the Hamiltonian vector field solved from omega and d<mu, xi> differs from X_xi (relative "
+            f"{np.max(out['field']):.1e}); fix the moment equation first (see moment_map)",
+            [],
+        )
+    if np.max(out["along"]) > tol and np.max(out["against"]) <= tol:
+        return "the flow runs backwards", [
+            (
+                "flow-sign",
+                f"the Hamiltonian flow of <mu, xi> moves points like exp(-t xi), the opposite of the declared "
+                f"flow={conv.flow:+d} (relative distance {np.max(out['along']):.1e} to exp({'+' if conv.flow == 1 else '-'}t xi).x, "
+                f"{np.max(out['against']):.1e} to the reverse). Fix: declare Convention(sign={-conv.sign:+d}, "
+                f"flow={conv.flow:+d}) or negate the moment map together with the vector fields",
+                {"along": float(np.max(out["along"])), "against": float(np.max(out["against"]))},
+            )
+        ]
+    if np.max(out["along"]) > tol:
+        return f"flow differs from exp(t xi).x by {np.max(out['along']):.1e} relative {_at(ev)}", []
+    return f"moment components commuting with xi drift by {np.max(out['conserved']):.1e} along the flow", []
+
+
 DIAGNOSES = {
     "antisymmetric": antisymmetric,
     "closed": closed,
@@ -278,4 +306,5 @@ DIAGNOSES = {
     "equivariance": equivariance,
     "action": action,
     "group_equivariance": group_equivariance,
+    "flow": flow,
 }

@@ -1,0 +1,116 @@
+"""coadjoint_orbit: chart, KKS form, inclusion moment map and finite action pass every check.
+
+References: finite.md 2b (SO(3) orbit of radius lambda: volume 4 pi lambda,
+moment map = inclusion), 4b (U(n) orbit volume, Macdonald 1980) and 4 (HCIZ).
+Orbit dimension = dim g - dim stabilizer (a fact of the trade).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+import hamcheck
+from hamcheck import LieAlgebra, ModelError
+from hamcheck.orbits import coadjoint_orbit, stabilizer_dimension, unitary_flag_chart
+
+SO3 = [np.array([[0, 0, 0], [0, 0, -1], [0, 1, 0]]), np.array([[0, 0, 1], [0, 0, 0], [-1, 0, 0]]),
+       np.array([[0, -1, 0], [1, 0, 0], [0, 0, 0]])]
+PAULI = [np.array([[0, 1], [1, 0]]), np.array([[0, -1j], [1j, 0]]), np.diag([1.0, -1.0])]
+
+
+def gell_mann():
+    m = np.zeros((8, 3, 3), complex)
+    m[0][0, 1] = m[0][1, 0] = 1
+    m[1][0, 1], m[1][1, 0] = -1j, 1j
+    m[2] = np.diag([1, -1, 0])
+    m[3][0, 2] = m[3][2, 0] = 1
+    m[4][0, 2], m[4][2, 0] = -1j, 1j
+    m[5][1, 2] = m[5][2, 1] = 1
+    m[6][1, 2], m[6][2, 1] = -1j, 1j
+    m[7] = np.diag([1, 1, -2]) / np.sqrt(3)
+    return LieAlgebra.from_matrices([1j * a / 2 for a in m])
+
+
+def un(n):
+    """u(n) with the pairing <H, xi> = i tr(H xi) of finite.md 4b."""
+    basis = []
+    for j in range(n):
+        basis.append(np.diag([1j if k == j else 0 for k in range(n)]))
+    for j in range(n):
+        for k in range(j + 1, n):
+            E = np.zeros((n, n), complex)
+            E[j, k], E[k, j] = 1, -1
+            basis.append(E)
+            basis.append(1j * np.abs(E))
+    return LieAlgebra.from_matrices(basis)
+
+
+def components(alg, H):
+    return np.array([np.real(1j * np.trace(H @ e)) for e in alg.basis])
+
+
+SU3 = gell_mann()
+CASES = {
+    "so3": (LieAlgebra.from_matrices(SO3), [0.3, -0.5, 1.2], 2),
+    "su2": (LieAlgebra.from_matrices([1j * s / 2 for s in PAULI]), [0.2, 0.1, 0.9], 2),
+    "sl2-elliptic": (LieAlgebra.from_matrices([np.diag([1.0, -1.0]), np.array([[0, 1.0], [0, 0]]),
+                                               np.array([[0, 0], [1.0, 0]])]), [0.0, 1.0, -1.0], 2),
+    "su3-regular": (SU3, components(SU3, np.diag([1.0, 0.3, -1.3])), 6),
+    "su3-singular": (SU3, components(SU3, np.diag([1.0, 1.0, -2.0])), 4),
+}
+
+
+def test_orbit_dimensions():
+    for alg, point, dim in CASES.values():
+        assert alg.dim - stabilizer_dimension(alg, point) == dim
+
+
+@pytest.mark.parametrize("case", ["so3", pytest.param("su2", marks=pytest.mark.slow),
+                                  pytest.param("sl2-elliptic", marks=pytest.mark.slow),
+                                  pytest.param("su3-regular", marks=pytest.mark.slow),
+                                  pytest.param("su3-singular", marks=pytest.mark.slow)])
+def test_orbit_passes_every_check(case):
+    alg, point, dim = CASES[case]
+    m = coadjoint_orbit(alg, point)
+    assert m.dim == dim
+    r = hamcheck.check(m, points=4)
+    assert r.passed, r.results
+    x = m.sample(np.random.default_rng(1))
+    mu = np.asarray(m.moment_at(x))
+    # the moment map is the inclusion: mu stays on the orbit (same invariants); for so(3) |mu| is conserved
+    if case == "so3":
+        assert np.linalg.norm(mu) == pytest.approx(np.linalg.norm(point), rel=1e-13)
+
+
+def test_planted_wrong_form_is_caught():
+    # negative control: KKS form doubled -> the moment equation fails with factor 2 diagnosed
+    alg, point, _ = CASES["so3"]
+    m = coadjoint_orbit(alg, point)
+    bad = hamcheck.Model("so3 2omega", 2, form=lambda y: 2 * m.form(y), algebra=alg, moment=m.moment,
+                         vector_fields=m.vector_fields)
+    r = hamcheck.check(bad, points=4, only=["moment_map"])
+    assert r.results["moment_map"].status == "fail"
+    assert [f.kind for f in r.findings] == ["moment-scale"]
+
+
+def test_u2_orbit_volume_and_hciz():
+    # finite.md 4b (Macdonald): vol = 2 pi |b1 - b2|; localization = vol * HCIZ (finite.md 4)
+    b, a, t = (1.3, 0.2), (0.9, -0.4), 1.0
+    alg = un(2)
+    m = coadjoint_orbit(alg, components(alg, np.diag(b)), chart=unitary_flag_chart(2))
+    # xi = -i diag(a): <H, xi> = i tr(H xi) = tr(A H)
+    xi = np.array([-a[0], -a[1], 0.0, 0.0])
+    loc = hamcheck.localization(m, xi, t, rtol=1e-8, starts=16)
+    hciz = 1.58217045440591  # finite.md row 4
+    vol = 2 * math.pi * abs(b[0] - b[1])
+    assert loc.integral == pytest.approx(vol * hciz, rel=1e-7)
+    assert loc.fixed_point_sum == pytest.approx(vol * hciz, rel=1e-12)
+    assert len(loc.fixed_points) == 2
+
+
+def test_point_fixed_by_everything_is_refused():
+    with pytest.raises(ModelError, match="single point"):
+        coadjoint_orbit(LieAlgebra.from_matrices(SO3), [0.0, 0.0, 0.0])
+    with pytest.raises(ModelError, match="3 finite"):
+        coadjoint_orbit(LieAlgebra.from_matrices(SO3), [1.0, 2.0])
