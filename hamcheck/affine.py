@@ -1353,14 +1353,11 @@ def classify_file(path, c=None, *, group: MatrixGroup = SU2, M: int = 512) -> di
         c = data.params.get("c")
     if c is None:
         raise UsageError(f"no level for {path}: pass --c VALUE (or define c = ... in a .py file)")
-    tail = circle.spectral_tail(vals)
+    tail, warning = circle.resolution_warning(vals, "A")
     out = classify(vals, c, group)
     out.update({"file": data.source, "input": data.kind, "spectral_tail": tail})
-    if tail > 1e-8:
-        out["warning"] = (
-            f"the samples are under-resolved (top third of the spectrum is {tail:.1e} of the largest mode): the "
-            "invariants are those of the trigonometric interpolant; sample A on a finer grid"
-        )
+    if warning:
+        out["warning"] = warning
     return out
 
 

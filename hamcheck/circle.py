@@ -232,6 +232,21 @@ def spectral_tail(f) -> float:
     return float(mag[top].max() / mag.max())
 
 
+#: Spectral tail above which samples count as under-resolved (see :func:`spectral_tail`).
+UNDERRESOLVED_TAIL = 1e-8
+
+
+def resolution_warning(f, name: str):
+    """``(tail, warning or None)`` for samples of the periodic function called ``name``."""
+    tail = spectral_tail(f)
+    if tail <= UNDERRESOLVED_TAIL:
+        return tail, None
+    return tail, (
+        f"the samples are under-resolved (top third of the spectrum is {tail:.1e} of the largest mode): the "
+        f"invariants are those of the trigonometric interpolant; sample {name} on a finer grid"
+    )
+
+
 # ------------------------------------------------------- trig polynomials
 @dataclass(frozen=True)
 class Periodic:

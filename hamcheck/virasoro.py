@@ -656,14 +656,11 @@ def classify_file(path, c=None, *, M: int = 512) -> dict:
         c = data.params.get("c")
     if c is None:
         raise UsageError(f"no central charge for {path}: pass --c VALUE (or define c = ... in a .py file)")
-    tail = circle.spectral_tail(data.values)
+    tail, warning = circle.resolution_warning(data.values, "T")
     out = classify(data.values, c)
     out.update({"file": data.source, "input": data.kind, "samples": data.M, "spectral_tail": tail})
-    if tail > 1e-8:
-        out["warning"] = (
-            f"the samples are under-resolved (top third of the spectrum is {tail:.1e} of the largest mode): "
-            "invariants are those of the trigonometric interpolant; sample T on a finer grid"
-        )
+    if warning:
+        out["warning"] = warning
     return out
 
 
