@@ -2,8 +2,8 @@
 
 :func:`check` is the one entry point. With autodiff all selected kernels run
 inside *one* ``jax.jit`` (one compilation per call, never one per point),
-mapped over the points with ``jax.lax.map`` in vmapped batches sized to keep
-memory bounded. If tracing that combined program fails, each check is traced
+mapped over the points with ``jax.lax.map`` (sequentially by default; vmapped
+batches sized to a memory budget when ``Settings.max_batch`` allows). If tracing that combined program fails, each check is traced
 alone so the failure is pinned to a check and the others still run. With
 finite differences the kernels run eagerly point by point and an exception at
 one point is reported while the other points are still checked.
@@ -45,10 +45,12 @@ class Settings:
         worst samples (0 disables the search; the report then says so).
     memory_budget: bytes of intermediate arrays per vmapped batch of points.
     fast_compile: compile with XLA's cheap optimisation level (see FAST_COMPILE).
-    max_batch: most points vmapped together. Batches of 64 points of the CP^8
-        checks (linear solves and SVDs batched together) deadlocked jaxlib
-        0.10.2's CPU runtime; 16 ran, and run time barely depends on it (0.15 s
-        at 64 points either way) since compilation dominates.
+    max_batch: most points vmapped together; 1 maps the points sequentially
+        (a scan, no vmap). Vmapped batches of CP^n checks (batched linear solves
+        and SVDs) deadlocked jaxlib 0.10.2's CPU runtime on this 2-core machine
+        (64 points at dim 16, 16 points at dim 32); sequential mapping never did,
+        and cost the same (0.16 s for 64 points at dim 16) since compilation
+        dominates. Raise it only where the runtime is known to cope.
     """
 
     pairs: int = 8
@@ -58,7 +60,7 @@ class Settings:
     search_starts: int = 3
     search_iterations: int = 40
     memory_budget: float = 2.0e8
-    max_batch: int = 16
+    max_batch: int = 1
     fast_compile: bool = True
 
 
@@ -160,7 +162,10 @@ def _run_traced(model, kernels, xs, probes, settings):
         key = (tuple(names), batch, settings.fast_compile, str(shapes))
         cache = model.__dict__.setdefault("_compiled_checks", {})
         if key not in cache:
-            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
+            if batch == 1:  # a plain scan: no batched custom calls (see Settings.max_batch)
+                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
+            else:
+                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
             cache[key] = fn.lower(*args).compile(FAST_COMPILE if settings.fast_compile else None)
         out = cache[key](*args)
         return jax.tree_util.tree_map(lambda a: np.asarray(a)[:n], out)
