@@ -116,6 +116,19 @@ def _run(cmd, **kw):
     return proc
 
 
+def _running_site_packages():
+    """Site-packages of the environment running the tests (a venv's own, never the base's)."""
+    import site
+    dirs = [d for d in site.getsitepackages() if Path(d).is_dir()]
+    return [d for d in dirs if d not in _base_site_packages() or sys.prefix == sys.base_prefix]
+
+
+def _base_site_packages():
+    import sysconfig
+    scheme = {"base": sys.base_prefix, "platbase": sys.base_prefix}
+    return {sysconfig.get_paths(vars=scheme)["purelib"], sysconfig.get_paths(vars=scheme)["platlib"]}
+
+
 @pytest.mark.slow
 def test_plugin_works_in_a_project_installed_from_the_wheel(tmp_path):
     # copy only what the wheel is built from, so no build/ or *.egg-info lands in the repository
@@ -132,13 +145,23 @@ def test_plugin_works_in_a_project_installed_from_the_wheel(tmp_path):
     (wheel,) = dist.glob("hamcheck-*.whl")
 
     venv = tmp_path / "venv"
-    # system site-packages give jax and numpy without a download; without pip the venv is made in ~1 s
-    made = _run([sys.executable, "-m", "venv", "--system-site-packages", "--without-pip", str(venv)], timeout=300)
+    # A bare venv (no --system-site-packages: those would be the *base* interpreter's packages,
+    # which a fresh machine does not have). Its dependencies come from the environment running
+    # these tests, through a .pth file naming that environment's site-packages: no download.
+    made = _run([sys.executable, "-m", "venv", "--without-pip", str(venv)], timeout=300)
     assert made.returncode == 0, made.stderr
     py = venv / "bin" / "python"
+    venv_site = Path(_run([str(py), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
+                          timeout=60).stdout.strip())
+    (venv_site / "_running_environment.pth").write_text("\n".join(_running_site_packages()) + "\n")
     pip = [sys.executable, "-m", "pip", "--python", str(py)]  # this pip installs into the venv
     installed = _run(pip + ["install", "--no-deps", "--no-index", "-q", str(wheel)], timeout=300)
     assert installed.returncode == 0, installed.stderr[-2000:]
+    # the guard of issue "README's test command fails on a fresh machine": nothing of the base
+    # interpreter's site-packages may be visible in the throwaway environment
+    seen = _run([str(py), "-c", "import sys; print('\\n'.join(sys.path))"], timeout=60).stdout.split()
+    if sys.prefix != sys.base_prefix:  # run from a venv: the base interpreter must stay out of sight
+        assert not set(seen) & set(_base_site_packages()), seen
 
     project = tmp_path / "project"
     (project / "tests").mkdir(parents=True)
@@ -151,6 +174,15 @@ def test_plugin_works_in_a_project_installed_from_the_wheel(tmp_path):
     assert "test_hamcheck_comes_from_the_installed_wheel PASSED" in out, out[-4000:]
     assert "test_planted_mistake_fails FAILED" in out and "[moment-sign]" in out, out[-4000:]
     assert "1 failed, 2 passed" in out, out[-4000:]
+
+
+def test_no_test_relies_on_the_base_interpreter():
+    # A throwaway environment made with the system-site-packages option sees the *base*
+    # interpreter's packages, which a fresh machine does not have (a green CI once hid that).
+    option = "--system-" + "site-packages"
+    for path in (ROOT / "tests").glob("*.py"):
+        code = [line for line in path.read_text().splitlines() if not line.lstrip().startswith("#")]
+        assert not any(option in line for line in code), f"{path.name} makes an environment with {option}"
 
 
 def test_throwaway_sources_are_valid_python():
