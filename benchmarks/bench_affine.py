@@ -76,7 +76,7 @@ def orbit_table():
         r = hamcheck.check(m, points=16, settings=hamcheck.Settings(search_starts=0))
         t2 = time.perf_counter()
         print(
-            f"{K:>6} {m.dim:>5} {m.grid:>5} {t1 - t0:>8.2f} {t2 - t1:>8.2f} {r.results['closed'].residual:>9.1e} "
+            f"{K:>6} {m.dim:>5} {m.construction.grid:>5} {t1 - t0:>8.2f} {t2 - t1:>8.2f} {r.results['closed'].residual:>9.1e} "
             f"{r.results['moment_map'].residual:>9.1e} {str(r.passed):>7}"
         )
 

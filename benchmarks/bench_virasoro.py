@@ -68,7 +68,7 @@ def main(argv=None):
         reps = max(1, args.repeats // 2)
         t, rep = timed(lambda: hamcheck.check(model, points=16, only=["closed"], settings=setting), reps)
         r = rep.results["closed"]
-        rows.append((label, t, t / t_inv, f"{r.status}, residual {r.residual:.1e} (grid {model.virasoro['grid']}, incl. compile)"))
+        rows.append((label, t, t / t_inv, f"{r.status}, residual {r.residual:.1e} (grid {model.construction.grid}, incl. compile)"))
 
     w = max(len(r[0]) for r in rows)
     print(f"{'case':<{w}}  {'median s':>9}  {'ratio':>9}  note")

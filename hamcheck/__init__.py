@@ -12,7 +12,7 @@ configuration is changed.
 from .algebra import LieAlgebra
 from .checks import CHECK_NAMES
 from .diagnose import FINDING_KINDS
-from .errors import HamcheckError, ModelError, UsageError
+from .errors import ConvergenceError, FrozenModelError, HamcheckError, LoadError, ModelError, UsageError
 from .model import Convention, Model
 from .numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
 from .report import CheckResult, Finding, Report
@@ -36,7 +36,10 @@ __all__ = [
     "FINDING_KINDS",
     "FINITE_DIFFERENCE_TOLERANCES",
     "Finding",
+    "ConvergenceError",
+    "FrozenModelError",
     "HamcheckError",
+    "LoadError",
     "LieAlgebra",
     "Model",
     "ModelError",

@@ -35,15 +35,15 @@ True
 
 from __future__ import annotations
 
-import functools
 import math
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.linalg
 
 from . import circle
+from .cache import memoized
 from ._jax import jax, jnp
 from .circle import grid
 from .errors import UsageError
@@ -1000,11 +1000,25 @@ def orbit_model(a: float, c: float, modes, grid=None, *, radius: float = 0.5, fo
         vector_fields=lambda x: V @ x,
         sample=lambda rng: scale * rng.standard_normal(dim),
         convention=Convention(sign=1, flow=1),
+        chart_labels=labels,
+        construction=LoopOrbitChart(a=float(a), c=float(c), modes=tuple(modes), grid=int(M),
+                                    connection=lambda x: _conn(jnp.asarray(x), params)),
     )
-    model.chart_labels = labels
-    model.grid = int(M)
-    model.connection = lambda x: _conn(jnp.asarray(x), params)
     return model
+
+
+@dataclass(frozen=True)
+class LoopOrbitChart:
+    """What :func:`orbit_model` built: the orbit of ``a e_3`` at level ``c``, its modes and grid.
+
+    ``connection(x)`` is the connection (``(grid, 3)`` samples in the basis ``e_k``) at the chart point ``x``.
+    """
+
+    a: float
+    c: float
+    modes: tuple
+    grid: int
+    connection: object = field(repr=False, compare=False)
 
 
 # ====================================================== resolution studies
@@ -1072,7 +1086,7 @@ class OrbitResolution:
         return str(path)
 
 
-@functools.lru_cache(maxsize=8)
+@memoized(maxsize=8)
 def _study_kernel(a, c, modes, fine, trivialization, checks):
     """One compiled residual function per chart shape, reused across grids and formula variants."""
     from . import checks as _checks

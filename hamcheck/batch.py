@@ -34,6 +34,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
+from .errors import LoadError
 from .report import Outcome, Report, RunReport
 
 __all__ = [
@@ -66,18 +67,6 @@ DEFAULT_MEMORY_GB = 4.0 + 0.125 * max(0, (os.cpu_count() or 2) - 2)
 
 #: Text in a child's stderr that marks a crash as running out of memory.
 _MEMORY_MARKERS = ("MemoryError", "bad_alloc", "Cannot allocate memory", "cannot allocate memory", "RESOURCE_EXHAUSTED", "Out of memory")
-
-
-class LoadError(Exception):
-    """A model file could not be loaded: ``str()`` is one line ``FILE: REASON``.
-
-    ``reason`` is the part without the file; ``kind`` the outcome status it
-    maps to (``"load-error"`` or ``"out-of-memory"``).
-    """
-
-    def __init__(self, file: str, reason: str, kind: str = "load-error"):
-        super().__init__(f"{file}: {reason}" if file else reason)
-        self.file, self.reason, self.kind = file, reason, kind
 
 
 @dataclass(frozen=True)
@@ -176,8 +165,7 @@ def load_models(path) -> list:
     for value in vars(module).values():
         if isinstance(value, Model) and id(value) not in seen:
             seen.add(id(value))
-            value.source = shown
-            models.append(value)
+            models.append(value.replace(source=shown))
     return models
 
 

@@ -35,7 +35,7 @@ import numpy as np
 from ._jax import jax, jnp
 from .algebra import LieAlgebra
 from .differentiation import AUTODIFF, FiniteDifferences
-from .errors import ModelError
+from .errors import FrozenModelError, ModelError
 
 __all__ = ["Convention", "Model"]
 
@@ -135,7 +135,24 @@ class Model:
         The fallback for functions written in plain numpy that jax cannot
         trace: central differences with widened tolerances, marked in every
         report. Never chosen automatically.
+    domain : ``((lo, hi), ...)``, optional
+        Per-coordinate bounds of a chart covering the manifold up to measure
+        zero (infinite bounds allowed), used by the integrals of the theory.
+    chart_labels : sequence of str, optional
+        Names of the coordinates, for tables and plots.
+    source : str, optional
+        The file declaring the model, for replay commands (default: found
+        from the caller's frame).
+    construction : frozen record, optional
+        What a builder knows about the model it built (the base point and
+        grid of a truncated orbit chart, say); ``None`` for hand-made models.
+
+    A declared model is immutable: setting an attribute raises
+    :class:`~hamcheck.FrozenModelError`; :meth:`replace` returns a copy with
+    other metadata.
     """
+
+    _FROZEN_HINT = "a declared Model is immutable; use model.replace(...) or declare a new Model"
 
     def __init__(
         self,
@@ -151,6 +168,9 @@ class Model:
         convention=Convention(),
         derivatives="autodiff",
         domain=None,
+        chart_labels=None,
+        source=None,
+        construction=None,
     ):
         if not isinstance(name, str) or not name:
             raise ModelError(f"name must be a non-empty string; got {name!r}")
@@ -181,22 +201,62 @@ class Model:
                 "declare it with LieAlgebra.from_matrices or give vector_fields instead"
             )
 
-        self.name = name
-        self.dim = int(dim)
-        self.algebra = algebra
-        self.convention = convention
-        self.derivatives = derivatives
-        self.form = form
-        self.moment = moment
-        self.vector_fields = vector_fields
-        self.action = action
-        self.sample = sample if sample is not None else (lambda rng: rng.standard_normal(self.dim))
-        self.source = _caller_file()
-        self.ops = AUTODIFF if derivatives == "autodiff" else FiniteDifferences()
+        if chart_labels is not None:
+            chart_labels = tuple(chart_labels)
+            if len(chart_labels) != int(dim):
+                raise ModelError(f"chart_labels has {len(chart_labels)} entries; expected one per coordinate ({dim})")
+        set_ = super().__setattr__
+        set_("name", name)
+        set_("dim", int(dim))
+        set_("algebra", algebra)
+        set_("convention", convention)
+        set_("derivatives", derivatives)
+        set_("form", form)
+        set_("moment", moment)
+        set_("vector_fields", vector_fields)
+        set_("action", action)
+        dim_ = int(dim)
+        set_("sample", sample if sample is not None else (lambda rng: rng.standard_normal(dim_)))
+        set_("source", source if source is not None else _caller_file())
+        set_("ops", AUTODIFF if derivatives == "autodiff" else FiniteDifferences())
         # Integration domain of the chart (used by hamcheck.localization and friends): per-coordinate
         # bounds ((lo, hi), ...), infinite allowed, covering the manifold up to a set of measure zero.
-        self.domain = _validate_domain(domain, self.dim)
+        set_("domain", _validate_domain(domain, dim_))
+        set_("chart_labels", chart_labels)
+        set_("construction", construction)
         self._validate()
+        set_("_frozen", True)
+
+    def __setattr__(self, key, value):
+        raise FrozenModelError(f"cannot set Model.{key}: {self._FROZEN_HINT}")
+
+    def __delattr__(self, key):
+        raise FrozenModelError(f"cannot delete Model.{key}: {self._FROZEN_HINT}")
+
+    _REPLACEABLE = ("name", "source", "chart_labels", "construction")
+
+    def replace(self, **changes) -> "Model":
+        """A copy with other metadata (``name``, ``source``, ``chart_labels``, ``construction``).
+
+        The functions are shared, so the copy is not validated again. To change a
+        function, declare a new Model.
+        """
+        bad = sorted(set(changes) - set(self._REPLACEABLE))
+        if bad:
+            raise ModelError(
+                f"Model.replace() changes only {', '.join(self._REPLACEABLE)}; got {', '.join(bad)} "
+                "(declare a new Model to change its functions)"
+            )
+        if "name" in changes and (not isinstance(changes["name"], str) or not changes["name"]):
+            raise ModelError(f"name must be a non-empty string; got {changes['name']!r}")
+        if changes.get("chart_labels") is not None:
+            changes["chart_labels"] = tuple(changes["chart_labels"])
+            if len(changes["chart_labels"]) != self.dim:
+                raise ModelError(f"chart_labels has {len(changes['chart_labels'])} entries; expected {self.dim}")
+        new = object.__new__(Model)
+        for key, value in self.__dict__.items():
+            object.__setattr__(new, key, changes.get(key, value))
+        return new
 
     # ------------------------------------------------------------- properties
     @property

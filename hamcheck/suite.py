@@ -18,6 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .cache import compile_lowered, compiled
 from ._jax import jax, jnp
 from .checks import CHECK_NAMES, CHECKS
 from .diagnose import DIAGNOSES, Evidence
@@ -160,14 +161,14 @@ def _run_traced(model, kernels, xs, probes, settings):
         # one compiled program per model and layout: re-checking with another seed reuses it
         shapes = jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), args)
         key = (tuple(names), batch, settings.fast_compile, str(shapes))
-        cache = model.__dict__.setdefault("_compiled_checks", {})
-        if key not in cache:
+        def build(_model):
             if batch == 1:  # a plain scan: no batched custom calls (see Settings.max_batch)
                 fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
             else:
                 fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
-            cache[key] = fn.lower(*args).compile(FAST_COMPILE if settings.fast_compile else None)
-        out = cache[key](*args)
+            return compile_lowered(fn.lower(*args), FAST_COMPILE if settings.fast_compile else None)
+
+        out = compiled(model, ("checks", key), build)(*args)
         return jax.tree_util.tree_map(lambda a: np.asarray(a)[:n], out)
 
     try:
@@ -441,15 +442,15 @@ def _search_degenerate(model, pts, r, out, settings):
     typical = float(np.median(out["smax"]))
     lo, hi = pts.min(axis=0), pts.max(axis=0)
     if model.traced:
-        cache = model.__dict__.setdefault("_compiled_checks", {})
-        if "search" not in cache:
+        def build(model):
             # the typical scale is an argument, so the program is reused across calls
             def ratio_t(x, t):
                 s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
                 return s[-1] / jnp.maximum(jnp.maximum(s[0], t), 1e-300)
 
-            cache["search"] = jax.jit(jax.value_and_grad(ratio_t))
-        grad_fn = cache["search"]
+            return jax.jit(jax.value_and_grad(ratio_t))
+
+        grad_fn = compiled(model, "degeneracy-search", build)
         fun = lambda x: grad_fn(x, typical)  # noqa: E731
 
         def objective(x):

@@ -52,7 +52,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -861,9 +861,21 @@ def orbit_model(T0, c, modes, grid: int | None = None, *, amplitude: float = 0.4
         return amplitude * rng.uniform(0.2, 1.0) * x / np.sum(nvec * np.abs(x))
 
     label = name or f"virasoro_orbit(T0={'%g' % T0c if constant else 'non-constant'}, c={c:g}, modes={modes}, M={M})"
-    model = Model(label, dim, form, algebra, moment, sample=sample, convention=Convention(sign=+1, flow=+1), **extra)
-    model.virasoro = {"T0": T0c if constant else p, "c": c, "modes": modes, "grid": M, "point": point}
-    return model
+    built = VirasoroOrbitChart(T0=T0c if constant else p, c=c, modes=tuple(modes), grid=M, point=point)
+    return Model(label, dim, form, algebra, moment, sample=sample, convention=Convention(sign=+1, flow=+1),
+                 construction=built, **extra)
+
+
+@dataclass(frozen=True)
+class VirasoroOrbitChart:
+    """What :func:`orbit_model` built: base potential ``T0`` (a number or a
+    :class:`~hamcheck.circle.Periodic`), central charge, modes, quadrature grid, and ``point``."""
+
+    T0: object
+    c: float
+    modes: tuple
+    grid: int
+    point: object = field(repr=False, compare=False, default=None)
 
 
 def kks_base_form(T0, c, modes) -> np.ndarray:
@@ -883,11 +895,11 @@ def kks_base_form(T0, c, modes) -> np.ndarray:
 
 def base_form_residual(model: Model) -> float:
     """Relative difference between the model's form at x = 0 and :func:`kks_base_form`."""
-    info = getattr(model, "virasoro", None)
-    if info is None or isinstance(info["T0"], circle.Periodic):
+    info = model.construction
+    if not isinstance(info, VirasoroOrbitChart) or isinstance(info.T0, circle.Periodic):
         raise UsageError("base_form_residual needs a model from orbit_model with a constant T0")
     W = np.asarray(model.form(jnp.zeros(model.dim)))
-    ref = kks_base_form(info["T0"], info["c"], info["modes"])
+    ref = kks_base_form(info.T0, info.c, info.modes)
     return float(np.abs(W - ref).max() / max(np.abs(ref).max(), 1e-300))
 
 
@@ -909,12 +921,12 @@ def base_form_check(model: Model):
 
     r = base_form_residual(model)
     failed = not (r <= BASE_FORM_TOL)
-    info = model.virasoro
+    info = model.construction
     msg = (
         f"omega at T0 differs from pi n (c n^2 - 4 T0)/2 by {r:.1e} (relative): the chart uses another central "
         "charge or coefficient (check the c/2 in front of S(F) and the sign of c)"
         if failed
-        else f"omega at T0 = {info['T0']:g} matches the mode formula for modes {info['modes']}"
+        else f"omega at T0 = {info.T0:g} matches the mode formula for modes {list(info.modes)}"
     )
     return CheckResult(
         "kks_base_form", "fail" if failed else "pass", r, BASE_FORM_TOL, tuple(0.0 for _ in range(model.dim)), msg, 1,

@@ -9,7 +9,10 @@ EXPECTED = {
     "FINDING_KINDS",
     "FINITE_DIFFERENCE_TOLERANCES",
     "Finding",
+    "ConvergenceError",
+    "FrozenModelError",
     "HamcheckError",
+    "LoadError",
     "LieAlgebra",
     "Model",
     "ModelError",
@@ -42,6 +45,13 @@ def test_finding_kinds_cover_the_issue_list():
         "not-closed", "not-invariant", "degenerate", "not-antisymmetric", "non-finite",
     }
     assert required <= set(hamcheck.FINDING_KINDS)
+
+
+def test_every_error_hamcheck_raises_on_purpose_has_one_root():
+    from hamcheck import errors
+
+    for name in errors.__all__:
+        assert issubclass(getattr(errors, name), hamcheck.HamcheckError), name
 
 
 def test_importing_enables_float64_only():

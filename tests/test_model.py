@@ -110,3 +110,24 @@ def test_finite_differences_still_catch_a_sign_error():
 def test_source_file_is_recorded_for_replay():
     assert plane().source.endswith("test_model.py")
     assert "Model(name='plane', dim=2" in repr(plane())
+
+
+def test_a_declared_model_is_immutable():
+    m = plane()
+    with pytest.raises(hamcheck.FrozenModelError, match="immutable; use model.replace"):
+        m.name = "other"
+    with pytest.raises(AttributeError):  # also the builtin a caller would expect
+        m.extra = 1
+    with pytest.raises(hamcheck.HamcheckError):
+        del m.form
+
+
+def test_replace_changes_metadata_only():
+    m = plane(chart_labels=["x", "y"])
+    r = m.replace(name="renamed", source="elsewhere.py")
+    assert (r.name, r.source, r.chart_labels, m.name) == ("renamed", "elsewhere.py", ("x", "y"), "plane")
+    assert r.form is m.form and r.dim == m.dim
+    with pytest.raises(ModelError, match="changes only name, source, chart_labels, construction; got form"):
+        m.replace(form=lambda x: x)
+    with pytest.raises(ModelError, match="chart_labels has 3 entries; expected one per coordinate"):
+        plane(chart_labels=["a", "b", "c"])

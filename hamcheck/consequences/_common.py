@@ -7,15 +7,13 @@ traced arguments, so repeated calls never recompile.
 
 from __future__ import annotations
 
-import weakref
-
 import numpy as np
 
 from .._jax import jax, jnp
+from .. import cache as _cache
 from ..errors import UsageError
 from ..model import Model
 
-_CACHE: "weakref.WeakKeyDictionary[Model, dict]" = weakref.WeakKeyDictionary()
 
 
 def require_model(model, who: str) -> Model:
@@ -30,11 +28,8 @@ def require_model(model, who: str) -> Model:
 
 
 def compiled(model: Model, key: str, build):
-    """``build(model)`` once per (model, key); the result is kept while the model lives."""
-    store = _CACHE.setdefault(model, {})
-    if key not in store:
-        store[key] = build(model)
-    return store[key]
+    """``build(model)`` once per (model, key), in :mod:`hamcheck.cache`."""
+    return _cache.compiled(model, ("consequences", key), build)
 
 
 def algebra_vector(model: Model, xi, what: str = "xi") -> np.ndarray:

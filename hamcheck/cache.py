@@ -1,0 +1,200 @@
+"""Every cache of compiled programs, in one place, with one :func:`clear`.
+
+Two layers:
+
+* **In memory, per owner.** :func:`compiled` keeps ``build(owner)`` for each
+  ``(owner, key)`` while the owner (usually a :class:`~hamcheck.Model`) lives,
+  through a weak reference: re-checking a model with another seed reuses its
+  programs, and a model that is garbage-collected takes its programs with it.
+  :func:`memoized` is ``functools.lru_cache`` registered here, for caches keyed
+  on plain values (chart shapes of a resolution study).
+* **On disk, across processes.** jax's persistent compilation cache, in a
+  per-user folder (``$XDG_CACHE_HOME/hamcheck/jax``, else
+  ``~/.cache/hamcheck/jax``). ``HAMCHECK_CACHE_DIR=/some/folder`` names another
+  folder and ``HAMCHECK_CACHE_DIR=`` (empty) turns it off. A program is found
+  again only when its lowered HLO, compile options, jax version and devices are
+  identical, so a changed model never gets a stale program. A folder that
+  cannot be written, or an entry that cannot be read, gives one warning and the
+  cache is then ignored for the rest of the process.
+
+Clear both with ``hamcheck.cache.clear(disk=True)`` or by deleting the folder
+(``hamcheck.cache.persistent_cache_dir()`` prints where it is).
+
+>>> from hamcheck import cache
+>>> calls = []
+>>> class Owner: pass
+>>> o = Owner()
+>>> cache.compiled(o, "k", lambda owner: calls.append(1) or "program")
+'program'
+>>> cache.compiled(o, "k", lambda owner: calls.append(1) or "program"), len(calls)
+('program', 1)
+"""
+
+from __future__ import annotations
+
+import functools
+import os
+import shutil
+import uuid
+import warnings
+import weakref
+from pathlib import Path
+
+__all__ = ["CacheWarning", "clear", "compile_lowered", "compiled", "memoized", "persistent_cache_dir"]
+
+ENV = "HAMCHECK_CACHE_DIR"
+
+_PER_OWNER: "weakref.WeakKeyDictionary[object, dict]" = weakref.WeakKeyDictionary()
+_MEMOIZED: list = []
+_state = {"dir": None, "owned": False, "configured": False, "warned": False}
+
+
+class CacheWarning(UserWarning):
+    """The persistent compilation cache could not be used; hamcheck goes on without it."""
+
+
+def compiled(owner, key, build):
+    """``build(owner)`` once per ``(owner, key)``; kept while ``owner`` lives."""
+    store = _PER_OWNER.setdefault(owner, {})
+    if key not in store:
+        store[key] = build(owner)
+    return store[key]
+
+
+def memoized(maxsize: int = 8):
+    """``functools.lru_cache(maxsize)`` whose cache :func:`clear` empties."""
+
+    def wrap(fn):
+        cached = functools.lru_cache(maxsize=maxsize)(fn)
+        _MEMOIZED.append(cached)
+        return cached
+
+    return wrap
+
+
+def clear(disk: bool = False) -> None:
+    """Forget every compiled program kept in memory (and, with ``disk=True``, on disk).
+
+    ``disk=True`` empties hamcheck's persistent folder only: a folder that was given
+    to jax directly (``jax_compilation_cache_dir``) belongs to the user and is kept.
+    """
+    _PER_OWNER.clear()
+    for fn in _MEMOIZED:
+        fn.cache_clear()
+    from ._jax import jax
+
+    jax.clear_caches()
+    folder = _state["dir"]
+    if disk and _state["owned"] and folder is not None and Path(folder).is_dir():
+        shutil.rmtree(folder, ignore_errors=True)
+        Path(folder).mkdir(parents=True, exist_ok=True)
+
+
+def persistent_cache_dir() -> Path | None:
+    """The folder of the persistent compilation cache in use, or None when it is off."""
+    return None if _state["dir"] is None else Path(_state["dir"])
+
+
+def _default_dir() -> Path:
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return Path(base) / "hamcheck" / "jax"
+
+
+def _warn_once(message: str) -> None:
+    if not _state["warned"]:
+        _state["warned"] = True
+        warnings.warn(message, CacheWarning, stacklevel=3)
+
+
+def configure_persistent_cache(jax) -> None:
+    """Turn jax's persistent compilation cache on in hamcheck's folder (called once at import).
+
+    A folder the user already gave jax (``jax_compilation_cache_dir``) is left alone.
+    """
+    if _state["configured"]:
+        return
+    _state["configured"] = True
+    if jax.config.jax_compilation_cache_dir:
+        _state["dir"] = jax.config.jax_compilation_cache_dir
+        return
+    raw = os.environ.get(ENV)
+    if raw is not None and raw.strip() == "":
+        return  # HAMCHECK_CACHE_DIR= turns the cache off
+    folder = Path(raw).expanduser() if raw else _default_dir()
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        probe = folder / f".write-test-{uuid.uuid4().hex}"
+        probe.write_bytes(b"ok")
+        probe.unlink()
+    except OSError as exc:
+        _warn_once(
+            f"the compilation cache folder {folder} cannot be written ({exc.strerror or exc}); "
+            f"going on without it (set {ENV} to a writable folder, or {ENV}= to turn it off)"
+        )
+        return
+    _watch_cache_reads()
+    jax.config.update("jax_compilation_cache_dir", str(folder))
+    # cache every program: hamcheck's are small and many, each one a fraction of a second
+    jax.config.update("jax_persistent_cache_min_compile_time_secs", 0.0)
+    jax.config.update("jax_persistent_cache_min_entry_size_bytes", 0)
+    _state["dir"] = str(folder)
+    _state["owned"] = True
+
+
+def _disable(jax) -> None:
+    from jax._src import compilation_cache  # jax's own reset hook; public config alone keeps the open cache
+
+    jax.config.update("jax_compilation_cache_dir", None)
+    compilation_cache.reset_cache()
+    _state["dir"] = None
+
+
+def _watch_cache_reads() -> None:
+    """Route jax's per-entry read warnings through :func:`_unreadable` (one warning, cache off).
+
+    jax warns once per unreadable entry, from every compile in the process (its own small
+    programs included), so the hook sits where jax reads the cache. If a jax release moves
+    that function, the hook is skipped and jax's own warnings stand.
+    """
+    try:
+        from jax._src import compiler
+    except ImportError:  # pragma: no cover - depends on the jax release
+        return
+    original = getattr(compiler, "_cache_read", None)
+    if original is None or getattr(original, "_hamcheck_watch", False):
+        return
+
+    def watched(*args, **kwargs):
+        with warnings.catch_warnings(record=True) as seen:
+            warnings.simplefilter("always")
+            result = original(*args, **kwargs)
+        for w in seen:
+            if "persistent compilation cache" in str(w.message):
+                _unreadable()
+            else:
+                warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        return result
+
+    watched._hamcheck_watch = True
+    compiler._cache_read = watched
+
+
+def _unreadable() -> None:
+    from ._jax import jax
+
+    folder = _state["dir"]
+    if folder is not None:
+        _disable(jax)
+    _warn_once(
+        f"the compilation cache in {folder} has an entry that cannot be read; going on without "
+        f"the cache (clear it with hamcheck.cache.clear(disk=True) or delete the folder)"
+    )
+
+
+def compile_lowered(lowered, options=None):
+    """``lowered.compile(options)``: the one place hamcheck compiles ahead of time.
+
+    Unreadable persistent-cache entries become one :class:`CacheWarning` (see
+    :func:`_watch_cache_reads`); jax then compiles the program anew.
+    """
+    return lowered.compile(options) if options is not None else lowered.compile()
