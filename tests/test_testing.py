@@ -139,6 +139,7 @@ def test_plugin_works_in_a_project_installed_from_the_wheel(tmp_path):
         if (ROOT / extra).exists():
             shutil.copy(ROOT / extra, src)
     shutil.copytree(ROOT / "hamcheck", src / "hamcheck", ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copy(ROOT / "pytest_hamcheck.py", src)
     dist = tmp_path / "dist"
     built = _run([sys.executable, "-m", "pip", "wheel", str(src), "--no-deps", "-q", "-w", str(dist)], timeout=600)
     assert built.returncode == 0, built.stderr[-2000:]
@@ -174,6 +175,35 @@ def test_plugin_works_in_a_project_installed_from_the_wheel(tmp_path):
     assert "test_hamcheck_comes_from_the_installed_wheel PASSED" in out, out[-4000:]
     assert "test_planted_mistake_fails FAILED" in out and "[moment-sign]" in out, out[-4000:]
     assert "1 failed, 2 passed" in out, out[-4000:]
+
+
+def test_loading_the_plugin_imports_neither_hamcheck_nor_jax(pytester):
+    # a project with hamcheck installed but not used must not pay for jax at pytest start-up
+    pytester.makepyfile(test_plain="""
+        import sys
+        def test_nothing_heavy_loaded():
+            assert "pytest_hamcheck" in sys.modules
+            assert "jax" not in sys.modules and "hamcheck" not in sys.modules, sorted(sys.modules)
+    """)
+    result = pytester.runpytest_subprocess("-p", "no:cacheprovider")
+    result.assert_outcomes(passed=1)
+
+
+def test_assert_passes_takes_any_report_or_result_with_a_report():
+    from hamcheck.testing import HamiltonianCheckFailed, assert_passes
+    ns = {}
+    exec(PLANES, ns)
+    good = hamcheck.check(ns["good"], points=4, only=["antisymmetric", "moment_map"])
+    assert assert_passes(good) is good
+
+    class Holder:  # a result that renders through a Report, as orbit classifications do
+        def report(self):
+            return hamcheck.check(ns["flipped"], points=4, only=["antisymmetric", "moment_map"])
+
+    with pytest.raises(HamiltonianCheckFailed, match=r"\[moment-sign\]"):
+        assert_passes(Holder())
+    with pytest.raises(hamcheck.UsageError, match="takes a hamcheck.Report or a result with .report"):
+        assert_passes(3)
 
 
 def test_no_test_relies_on_the_base_interpreter():
