@@ -4,7 +4,7 @@ The isolated run starts one child process per file; each child imports jax, so
 the whole module shares one run over a folder holding every kind of bad file.
 
 Reference values: the plane R^2 with omega = dx ^ dy and the rotation group has
-mu = -(x^2 + y^2)/2 (/work/shared/reference/finite.md row 1, "standard").
+mu = -(x^2 + y^2)/2 (docs/references.md, row F1, "standard").
 """
 
 import io

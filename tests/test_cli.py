@@ -4,10 +4,10 @@ Each hamcheck.check compiles a jit program (seconds), so one module-scoped run
 over a folder of every kind of bad input carries most assertions.
 
 Reference values: the rotation of the plane R^2 with omega = dx ^ dy has
-mu = -(x^2 + y^2)/2 in the project's convention (/work/shared/reference/finite.md
-row 1, "standard"); negating mu is the planted sign mistake, whose relative
+mu = -(x^2 + y^2)/2 in the project's convention (docs/references.md,
+row F1, "standard"); negating mu is the planted sign mistake, whose relative
 moment residual is 2/2 = 1.0 with the max-norm scaling of numerics.py
-(finite.md, "How planted mistakes show": sign flipped gives ratio -1).
+(docs/references.md, "How planted mistakes show": sign flipped gives ratio -1).
 """
 
 import csv

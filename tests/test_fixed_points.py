@@ -1,6 +1,6 @@
 """fixed_points: zeros of X_xi, values <mu, xi>, weights on (T_pM, J).
 
-Reference: ../shared/reference/finite.md rows 1 and 3b (CP^n: at the fixed
+Reference: docs/references.md rows F1 and F3b (CP^n: at the fixed
 point [e_j] the weights are xi_k - xi_j, k != j, with xi_0 = 0, and the value
 is -xi_j / 2).
 """
@@ -46,7 +46,7 @@ def cpn(n, scale=1.0, mu_factor=1.0, name=None):
 
 
 def oscillator(n=2):
-    """R^2n with sum dx_k ^ dy_k and z_k -> exp(i t_k) z_k: mu_k = -|z_k|^2 / 2 (finite.md row 1)."""
+    """R^2n with sum dx_k ^ dy_k and z_k -> exp(i t_k) z_k: mu_k = -|z_k|^2 / 2 (docs/references.md row F1)."""
     torus = LieAlgebra.from_matrices([np.diag([1j if k == j else 0 for k in range(n)]) for j in range(n)])
     W = jnp.block([[jnp.zeros((n, n)), jnp.eye(n)], [-jnp.eye(n), jnp.zeros((n, n))]])
 
@@ -68,7 +68,7 @@ def test_cp2_fixed_points_values_and_weights(cp2):
     fps = hamcheck.fixed_points(cp2, xi, starts=24)
     assert len(fps) == 3 and fps.isolated
     full = np.array([0.0, *xi])
-    # finite.md 3b: at [e_j] value -xi_j/2 and weights xi_k - xi_j (k != j)
+    # docs/references.md row F3b: at [e_j] value -xi_j/2 and weights xi_k - xi_j (k != j)
     expected = sorted(
         ((-full[j] / 2, sorted(full[k] - full[j] for k in range(3) if k != j)) for j in range(3)), key=lambda e: -e[0]
     )
@@ -81,7 +81,7 @@ def test_cp2_fixed_points_values_and_weights(cp2):
 
 
 def test_oscillator_weights_sign_and_repeated_weight():
-    # finite.md row 1: weights xi_k at the origin; a repeated weight (1, 1) is resolved by the signature
+    # docs/references.md row F1: weights xi_k at the origin; a repeated weight (1, 1) is resolved by the signature
     fps = hamcheck.fixed_points(oscillator(2), [1.0, 1.0], starts=4)
     assert len(fps) == 1
     assert fps[0].weights == pytest.approx((1.0, 1.0), abs=1e-12)

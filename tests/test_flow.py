@@ -1,6 +1,6 @@
 """flow(): DOP853 integration of the Hamiltonian vector field, and the `flow` check.
 
-Reference: finite.md row 1 (oscillator: mu = -|z|^2/2, the flow of <mu, xi>
+Reference: docs/references.md row F1 (oscillator: mu = -|z|^2/2, the flow of <mu, xi>
 rotates z_k by exp(i xi_k t)); the check's negative control plants a flow
 running backwards.
 """
@@ -21,7 +21,7 @@ def test_oscillator_flow_is_rotation():
     tr = hamcheck.flow(m, [1.0, 2.0], x0, t)
     z0 = x0[:2] + 1j * x0[2:]
     for ti, p in zip(t, tr.points):
-        z = z0 * np.exp(1j * np.array([1.0, 2.0]) * ti)  # finite.md row 1: z_k -> exp(i xi_k t) z_k
+        z = z0 * np.exp(1j * np.array([1.0, 2.0]) * ti)  # docs/references.md row F1: z_k -> exp(i xi_k t) z_k
         assert p == pytest.approx(np.concatenate([z.real, z.imag]), abs=1e-9)
     assert tr.conserved < 1e-10 and tr.action_error < 1e-9
     assert "Flow('R4'" in repr(tr)

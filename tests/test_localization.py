@@ -1,7 +1,7 @@
 """localization: numerical integral beside the Duistermaat-Heckman / ABBV fixed-point sum.
 
-References: ../shared/reference/finite.md rows 1 (oscillator), 3 (CP^n volume
-pi^n/n!), 3b (CP^2 value 5.75961098939; small s in mpmath, 80 digits).
+References: docs/references.md rows F1 (oscillator), F3 (CP^n volume
+pi^n/n!), F3b (CP^2 value 5.75961098939; small s in mpmath, 80 digits).
 """
 
 import math
@@ -18,7 +18,7 @@ XI = [0.37, -1.21]
 
 
 def cpn_closed_form(xi, s, digits=80):
-    """finite.md 3b: (2 pi/s)^n sum_j exp(-s xi_j/2) / prod_{k != j}(xi_k - xi_j), xi_0 = 0 (mpmath)."""
+    """docs/references.md row F3b: (2 pi/s)^n sum_j exp(-s xi_j/2) / prod_{k != j}(xi_k - xi_j), xi_0 = 0 (mpmath)."""
     with mpmath.workdps(digits):
         x = [mpmath.mpf(0)] + [mpmath.mpf(v) for v in xi]
         s = mpmath.mpf(s)
@@ -36,14 +36,14 @@ def cp2():
 
 def test_cp2_reference_value(cp2):
     loc = hamcheck.localization(cp2, XI, 1.0, rtol=1e-6, starts=16)
-    assert loc.fixed_point_sum == pytest.approx(5.75961098939, rel=1e-11)  # finite.md 3b
+    assert loc.fixed_point_sum == pytest.approx(5.75961098939, rel=1e-11)  # docs/references.md row F3b
     assert loc.integral == pytest.approx(5.75961098939, rel=1e-6)
     assert loc.relative_difference < 1e-6 and loc.agrees
     assert "Localization('CP2'" in repr(loc)
 
 
 def test_cp2_small_s_against_mpmath(cp2):
-    # finite.md 3b: small s cancels badly in floats; the reference is evaluated with 80 digits
+    # docs/references.md row F3b: small s cancels badly in floats; the reference is evaluated with 80 digits
     s = 0.05
     ref = cpn_closed_form(XI, s)
     loc = hamcheck.localization(cp2, XI, s, rtol=1e-6, starts=16)
@@ -54,12 +54,12 @@ def test_cp2_small_s_against_mpmath(cp2):
 
 def test_cp2_volume(cp2):
     loc = hamcheck.localization(cp2, XI, 0.0, rtol=1e-6, starts=8)
-    assert loc.integral == pytest.approx(math.pi**2 / 2, rel=1e-6)  # finite.md 3: pi^n / n!
+    assert loc.integral == pytest.approx(math.pi**2 / 2, rel=1e-6)  # docs/references.md row F3: pi^n / n!
     assert math.isnan(loc.fixed_point_sum)
 
 
 def test_oscillator_product_formula():
-    # finite.md row 1: int exp(s mu^xi) = prod 2 pi / (s xi_k) for s xi_k > 0
+    # docs/references.md row F1: int exp(s mu^xi) = prod 2 pi / (s xi_k) for s xi_k > 0
     # (R^2: the 4-dim version is as exact but spends ~1e6 cubature nodes on the Gaussian tail)
     loc = hamcheck.localization(oscillator(1), [0.5], 1.0, rtol=1e-6, starts=4)
     ref = 2 * math.pi / 0.5

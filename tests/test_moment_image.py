@@ -1,6 +1,6 @@
 """moment_image: convexity (Atiyah; Guillemin-Sternberg) and the DH density.
 
-Reference: finite.md row 3 (CP^n image = simplex conv{0, -e_k/2}).
+Reference: docs/references.md row F3 (CP^n image = simplex conv{0, -e_k/2}).
 """
 
 import numpy as np
@@ -17,7 +17,7 @@ def cp2():
 
 def test_cp2_image_is_the_simplex_and_dh_matches(cp2, tmp_path):
     img = hamcheck.moment_image(cp2, ["t1", "t2"], samples=2**13, starts=16)
-    # finite.md row 3: vertices 0, -e_1/2, -e_2/2
+    # docs/references.md row F3: vertices 0, -e_1/2, -e_2/2
     verts = sorted(map(tuple, np.round(img.fixed_images, 12)))
     assert verts == [(-0.5, 0.0), (0.0, -0.5), (0.0, 0.0)]
     assert img.inside_fraction == 1.0 and img.fill > 0.9 and img.convex

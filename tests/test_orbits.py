@@ -1,7 +1,7 @@
 """coadjoint_orbit: chart, KKS form, inclusion moment map and finite action pass every check.
 
-References: finite.md 2b (SO(3) orbit of radius lambda: volume 4 pi lambda,
-moment map = inclusion), 4b (U(n) orbit volume, Macdonald 1980) and 4 (HCIZ).
+References: docs/references.md row F2b (SO(3) orbit of radius lambda: volume 4 pi lambda,
+moment map = inclusion), F4b (U(n) orbit volume, Macdonald 1980) and F4 (HCIZ).
 Orbit dimension = dim g - dim stabilizer (a fact of the trade).
 """
 
@@ -33,7 +33,7 @@ def gell_mann():
 
 
 def un(n):
-    """u(n) with the pairing <H, xi> = i tr(H xi) of finite.md 4b."""
+    """u(n) with the pairing <H, xi> = i tr(H xi) of docs/references.md row F4b."""
     basis = []
     for j in range(n):
         basis.append(np.diag([1j if k == j else 0 for k in range(n)]))
@@ -95,14 +95,14 @@ def test_planted_wrong_form_is_caught():
 
 
 def test_u2_orbit_volume_and_hciz():
-    # finite.md 4b (Macdonald): vol = 2 pi |b1 - b2|; localization = vol * HCIZ (finite.md 4)
+    # docs/references.md row F4b (Macdonald): vol = 2 pi |b1 - b2|; localization = vol * HCIZ (docs/references.md row F4)
     b, a, t = (1.3, 0.2), (0.9, -0.4), 1.0
     alg = un(2)
     m = coadjoint_orbit(alg, components(alg, np.diag(b)), chart=unitary_flag_chart(2))
     # xi = -i diag(a): <H, xi> = i tr(H xi) = tr(A H)
     xi = np.array([-a[0], -a[1], 0.0, 0.0])
     loc = hamcheck.localization(m, xi, t, rtol=1e-8, starts=16)
-    hciz = 1.58217045440591  # finite.md row 4
+    hciz = 1.58217045440591  # docs/references.md row F4
     vol = 2 * math.pi * abs(b[0] - b[1])
     assert loc.integral == pytest.approx(vol * hciz, rel=1e-7)
     assert loc.fixed_point_sum == pytest.approx(vol * hciz, rel=1e-12)

@@ -5,8 +5,8 @@ the slow test builds the wheel, installs it into a throwaway venv and runs
 pytest there in a subprocess, the way a user's project would.
 
 Reference values: the plane R^2 with omega = dx ^ dy and the rotation group has
-mu = -(x^2 + y^2)/2 in the project's convention (/work/shared/reference/finite.md
-row 1, "standard"); negating mu is the planted mistake (finding moment-sign).
+mu = -(x^2 + y^2)/2 in the project's convention (docs/references.md,
+row F1, "standard"); negating mu is the planted mistake (finding moment-sign).
 """
 
 import os

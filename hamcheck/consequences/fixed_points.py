@@ -9,7 +9,7 @@ compatible with omega, ``exp(xi)`` acts by ``exp(i alpha)``: for an
 eigenvector ``v = a + ib`` of ``i beta``, ``alpha = beta`` when
 ``omega(a, b) < 0`` and ``alpha = -beta`` otherwise (the signature of
 ``-(i/2) v^H Omega v`` on a repeated eigenvalue). These are the weights of
-``../shared/reference/finite.md``: with the default convention positive
+docs/references.md (finite-dimensional models): with the default convention positive
 weights mean a local maximum of ``<mu, xi>``; in general the weight seen by
 ``<mu, xi>`` is ``sign * flow * alpha`` (:attr:`FixedPoint.hessian_weights`).
 
