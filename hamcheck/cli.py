@@ -6,10 +6,13 @@
                            [--isolate [--timeout SECONDS] [--memory GIB] [--jobs N]]
     hamcheck --debug check ...        (tracebacks of load errors)
 
-Exit status: 0 when every model passes; 1 when some check fails or errors;
-2 for usage errors and when some file or model could not be checked (load
-error, no model, time or memory limit, crash). Problems are one line each on
-stderr; the traceback only with --debug. Every failure prints the command
+Exit status, one meaning each: 0 when every model passes; 1 when some model
+fails or some file could not be checked (a load error, no model, a time or
+memory limit, a crash: results of the batch); 2 when hamcheck itself was used
+wrongly (unknown option, missing path, no *.py files, no model of the given
+name). Problems are one line each on stderr; the traceback only with --debug.
+Without --isolate a time limit still applies (--timeout, default 180 s, per
+file import and per model check). Every failure prints the command
 that replays it (``hamcheck check FILE --model NAME --seed S --points N
 --only CHECK``).
 
@@ -88,7 +91,8 @@ def _add_check_parser(sub):
     g.add_argument("--isolate", action="store_true",
                    help="check each file in its own process under a time and a memory limit")
     g.add_argument("--timeout", type=_positive_float, metavar="SECONDS",
-                   help=f"wall-clock limit per file with --isolate (default {DEFAULT_TIMEOUT:g})")
+                   help=f"wall-clock limit per file with --isolate, per file import and per model without it "
+                        f"(default {DEFAULT_TIMEOUT:g})")
     g.add_argument("--memory", type=_positive_float, metavar="GIB",
                    help=f"address-space limit per file with --isolate, in GiB (default {DEFAULT_MEMORY_GB:g}; jax needs ~2)")
     g.add_argument("--jobs", type=_positive_int, metavar="N", help="files checked at once with --isolate (default 1)")
@@ -112,7 +116,7 @@ def _print(text: str = "", file=None) -> None:
 def run_check(args) -> int:
     from .batch import run_in_process, run_isolated
 
-    limits = [f"--{n}" for n in ("timeout", "memory", "jobs") if getattr(args, n) is not None]
+    limits = [f"--{n}" for n in ("memory", "jobs") if getattr(args, n) is not None]
     if limits and not args.isolate:
         _print(f"hamcheck: {', '.join(limits)} only apply with --isolate", sys.stderr)
         return 2

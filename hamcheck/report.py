@@ -364,9 +364,10 @@ CSV_COLUMNS = ("file", "model", "status", "failing_checks", "findings", "message
 class RunReport:
     """The result of one ``hamcheck check`` run over files: summary rows and the full reports.
 
-    ``exit_code`` is the command's exit status: 2 when some file or model
-    could not be checked (see :data:`NOT_CHECKED`), else 1 when some model
-    failed, else 0.
+    ``exit_code`` is the command's exit status: 0 when every model passed,
+    1 when some model failed or some file could not be checked (load error,
+    no model, time or memory limit, crash: see :data:`NOT_CHECKED`; these are
+    results of the batch), 2 only when there was nothing to check.
     """
 
     outcomes: tuple[Outcome, ...]
@@ -385,8 +386,8 @@ class RunReport:
 
     @property
     def exit_code(self) -> int:
-        if not self.outcomes or any(o.status in NOT_CHECKED for o in self.outcomes):
-            return 2
+        if not self.outcomes:
+            return 2  # nothing was checked: hamcheck was pointed at nothing
         return 0 if all(o.status == "pass" for o in self.outcomes) else 1
 
     # ---------------------------------------------------------------- text

@@ -91,7 +91,9 @@ def isolated(tmp_path_factory):
 
 def test_isolated_run_exit_code_and_every_file_has_a_row(isolated):
     code, _, _, data, by_file = isolated
-    assert code == 2
+    # a file that fails to load, hangs or crashes is a failed file of the batch: exit 1, never 2
+    # (2 is kept for usage errors of hamcheck itself)
+    assert code == 1
     assert sorted(by_file) == sorted(list(ISOLATED) + ["h_na\\xefve.py"])
     assert data["options"]["isolate"] is True
 
@@ -159,7 +161,7 @@ def test_thousands_of_files_are_checked_with_throttled_progress(tmp_path, capsys
         (folder / f"s{i:04d}.py").write_text(f"value = {i}\n")
     code = main(["check", str(folder), "--quiet"])
     out, err = capsys.readouterr()
-    assert code == 2  # none defines a model
+    assert code == 1  # none defines a model: every file failed, hamcheck was used rightly
     assert f"0 of {n} passed; {n} could not be checked" in out
     progress = [ln for ln in err.splitlines() if ln.startswith("[")]
     assert progress[0].startswith(f"[1/{n}]") and progress[-1].startswith(f"[{n}/{n}]")
@@ -233,6 +235,32 @@ def test_load_models_reports_memory_errors_and_exits(tmp_path):
 def test_in_process_run_without_models_filter_and_duplicates(tmp_path):
     (tmp_path / "x.py").write_text("x = 1\n")
     run = run_in_process([tmp_path / "x.py"], Options(), warn=lambda line: None)
-    assert [o.status for o in run.outcomes] == ["no-model"] and run.exit_code == 2
+    assert [o.status for o in run.outcomes] == ["no-model"] and run.exit_code == 1
     assert duplicate_names(["a", "b", "a", "a", "b"]) == ["a", "b"]
     assert display_path(os.fsdecode(b"caf\xe9.py")) == "caf\\xe9.py"
+
+
+HANGS_AT_IMPORT = "while True:\n    pass\n"
+HANGS_IN_A_FUNCTION = PLANE + """
+calls = []
+def stuck_sample(rng):  # the declaration's one call returns; the check's calls never do
+    import time
+    calls.append(1)
+    while len(calls) > 1:
+        time.sleep(0.5)
+    return rng.standard_normal(2)
+stuck = plane("stuck", sample=stuck_sample)
+"""
+
+
+def test_without_isolation_a_hanging_file_times_out_and_the_rest_is_checked(tmp_path):
+    (tmp_path / "a_hangs.py").write_text(HANGS_AT_IMPORT)
+    (tmp_path / "b_sleeps.py").write_text(HANGS_IN_A_FUNCTION)
+    (tmp_path / "c_good.py").write_text(PLANE + "good = plane('good')\n")
+    lines = []
+    run = run_in_process(sorted(tmp_path.glob("*.py")), Options(points=4, timeout=2.0), warn=lines.append)
+    status = {o.file.rsplit("/", 1)[-1]: o.status for o in run.outcomes}
+    assert status == {"a_hangs.py": "timeout", "b_sleeps.py": "timeout", "c_good.py": "pass"}, status
+    assert run.exit_code == 1
+    assert any("time limit of 2 s reached while importing the file" in ln for ln in lines), lines
+    assert all("--isolate" in o.replay for o in run.outcomes if o.status == "timeout")
