@@ -44,7 +44,7 @@ from .periodic import (
     vector_modes,
     wavenumbers,
 )
-from .propagator import Propagation, expm_traceless2, ordered_product, prefix_products, propagate, transport
+from .propagator import Propagation, expm_traceless2, magnus_steps, ordered_product, prefix_products, propagate, transport
 from .resolution import (
     ChartResolution,
     ResolutionStudy,
@@ -53,57 +53,24 @@ from .resolution import (
     resolution_study,
     summarize_resolution,
 )
-from .samples import ClassificationInput, LoadedSamples, load_periodic_samples, read_input
+from .samples import ClassificationInput, LoadedSamples, coupling, load_periodic_samples, read_input
 from .stabilizer import Kernel, kernel, subspace_distance
-from .tolerances import TOLERANCES, CircleTolerances
+from .tolerances import TOLERANCES, CircleTolerances, ToleranceRecord
+
+from . import classification, periodic, propagator, resolution, samples, stabilizer, tolerances
 
 __all__ = [
-    # periodic functions and quadrature
-    "grid",
-    "wavenumbers",
-    "integrate",
-    "mean",
-    "derivative",
-    "real_modes",
-    "resample",
-    "mode_vector_to_samples",
-    "samples_to_mode_vector",
-    "vector_modes",
-    "spectral_tail",
-    "resolution_warning",
-    "Periodic",
-    # file input
-    "LoadedSamples",
-    "load_periodic_samples",
-    "ClassificationInput",
-    "read_input",
-    # propagator
-    "Propagation",
-    "propagate",
-    "transport",
-    "ordered_product",
-    "prefix_products",
-    "expm_traceless2",
-    # stabilizers and classification
-    "Kernel",
-    "kernel",
-    "subspace_distance",
+    *periodic.__all__,
+    *samples.__all__,
+    *propagator.__all__,
+    *stabilizer.__all__,
     "OrbitClassification",
-    # resolution studies
-    "ResolutionStudy",
-    "resolution_study",
-    "ChartResolution",
-    "check_resolution_study",
-    "summarize_resolution",
-    "fit_decay",
-    # cocycles
+    *resolution.__all__,
     "cocycles",
     "check_coadjoint_action",
     "central_ratio",
     "is_coboundary",
-    # tolerances
-    "CircleTolerances",
-    "TOLERANCES",
+    *tolerances.__all__,
 ]
 
 #: former module-level tolerances, now fields of TOLERANCES (one release of grace)

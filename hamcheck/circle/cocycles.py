@@ -254,15 +254,8 @@ def check_coadjoint_action(
         spread = max(spread, np.abs(diff).max())
         spread_den = max(spread_den, (np.abs(G) + np.abs(TB) + np.abs(C0))[np.ix_(sel, sel)].max())
     r_anti = num / max(den, TINY)
-    results["antisymmetric"] = _result(
-        "antisymmetric",
-        r_anti,
-        TOLERANCES.cocycle_antisymmetric,
-        "holds",
-        "<delta_X T, Y> is not antisymmetric: the pairing, the action or their normalisations do not match",
-        samples,
-        replay,
-    )
+    not_anti = "<delta_X T, Y> is not antisymmetric: the pairing, the action or their normalisations do not match"
+    results["antisymmetric"] = _result("antisymmetric", r_anti, TOLERANCES.cocycle_antisymmetric, "holds", not_anti, samples, replay)
     if r_anti > TOLERANCES.cocycle_antisymmetric:
         findings.append(
             Finding(
@@ -276,16 +269,10 @@ def check_coadjoint_action(
             )
         )
     r_spread = spread / max(spread_den, TINY)
-    results["central-constant"] = _result(
-        "central-constant",
-        r_spread,
-        TOLERANCES.cocycle_central_constant,
-        "the central term does not depend on T",
-        f"({sign:+d})<delta_X T, Y> - <T, [X, Y]> depends on T: the linear part of delta is not the coadjoint "
-        "action of this bracket",
-        samples,
-        replay,
-    )
+    depends = (f"({sign:+d})<delta_X T, Y> - <T, [X, Y]> depends on T: the linear part of delta is not the coadjoint "
+               "action of this bracket")
+    results["central-constant"] = _result("central-constant", r_spread, TOLERANCES.cocycle_central_constant,
+                                          "the central term does not depend on T", depends, samples, replay)
 
     # ----------------------------------------------------- cocycle identity
     exact = (modes[:, None] + modes[None, :]) <= K

@@ -15,6 +15,7 @@ how well the samples resolve the function.
 
 from __future__ import annotations
 
+import math
 import os
 import runpy
 from dataclasses import dataclass
@@ -24,7 +25,19 @@ import numpy as np
 from ..errors import UsageError
 from .periodic import _positive_int, grid, resolution_warning
 
-__all__ = ["LoadedSamples", "load_periodic_samples", "ClassificationInput", "read_input"]
+__all__ = ["LoadedSamples", "load_periodic_samples", "ClassificationInput", "read_input", "coupling"]
+
+
+def coupling(c, what: str) -> float:
+    """``c`` as a float, or one :class:`~hamcheck.UsageError` naming ``what`` (e.g. "level c") when it is not
+    a nonzero finite real number (the central charge or the level of both families)."""
+    try:
+        value = float(c)
+    except (TypeError, ValueError):
+        value = math.nan
+    if not math.isfinite(value) or value == 0.0:
+        raise UsageError(f"the {what} must be a nonzero finite real number; got {c!r}")
+    return value
 
 
 @dataclass(frozen=True)

@@ -18,11 +18,19 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
-__all__ = ["CircleTolerances", "TOLERANCES"]
+__all__ = ["ToleranceRecord", "CircleTolerances", "TOLERANCES"]
+
+
+class ToleranceRecord:
+    """Base of the frozen tolerance records of the circle families: ``replace`` and a compact repr."""
+
+    def replace(self, **changes):
+        """A copy with some tolerances changed (unknown names raise TypeError)."""
+        return dataclasses.replace(self, **changes)
 
 
 @dataclass(frozen=True)
-class CircleTolerances:
+class CircleTolerances(ToleranceRecord):
     """Named tolerances of :mod:`hamcheck.circle` (relative unless said otherwise).
 
     Attributes
@@ -106,10 +114,6 @@ class CircleTolerances:
     cocycle_coboundary: float = 1e-8
     cocycle_ratio: float = 1e-8
     real_values: float = 1e-12
-
-    def replace(self, **changes) -> "CircleTolerances":
-        """A copy with some tolerances changed (unknown names raise TypeError)."""
-        return dataclasses.replace(self, **changes)
 
 
 TOLERANCES = CircleTolerances()

@@ -43,13 +43,13 @@ Example
 True
 """
 
-from ..circle.classification import format_classification
 from .connections import central_cocycle, check_gauge_action, extension_adjoint, gauge_action, infinitesimal_action, pairing
 from .groups import SO3, SU, SU2, U1, Loop, MatrixGroup, constant_connection, grid
 from .holonomy import (
     Holonomy,
     classify,
     classify_file,
+    format_classification,
     holonomy,
     stabilizer_dimension_fourier,
     stabilizer_dimension_transport,
@@ -72,44 +72,14 @@ from .orbit_chart import (
 from .tolerances import TOLERANCES, LoopGroupTolerances
 from .truncated import TruncatedLoopAlgebra, check_user_action, truncated_algebra
 
+from . import connections, groups, orbit_chart, tolerances, truncated
+from .holonomy import __all__ as _holonomy_names
+
 __all__ = [
-    "MatrixGroup",
-    "SU2",
-    "SO3",
-    "U1",
-    "SU",
-    "Loop",
-    "grid",
-    "constant_connection",
-    "gauge_action",
-    "infinitesimal_action",
-    "pairing",
-    "central_cocycle",
-    "extension_adjoint",
-    "check_gauge_action",
-    "Holonomy",
-    "holonomy",
-    "su2_class",
-    "stabilizer_dimension_fourier",
-    "stabilizer_dimension_transport",
-    "classify",
-    "classify_file",
-    "format_classification",
-    "su2_Ad",
-    "su2_dexp",
-    "ChartFormulas",
-    "STANDARD",
-    "chart_labels",
-    "degenerate_modes",
-    "kks_form_at_base",
-    "orbit_model",
-    "LoopOrbitChart",
-    "OrbitResolution",
-    "orbit_resolution_study",
-    "summarize_resolution",
-    "TruncatedLoopAlgebra",
-    "truncated_algebra",
-    "check_user_action",
-    "LoopGroupTolerances",
-    "TOLERANCES",
+    *groups.__all__,
+    *connections.__all__,
+    *_holonomy_names,
+    *orbit_chart.__all__,
+    *truncated.__all__,
+    *tolerances.__all__,
 ]

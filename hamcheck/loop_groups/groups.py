@@ -201,13 +201,7 @@ def _check_group(group) -> MatrixGroup:
 
 
 def _check_level(c) -> float:
-    try:
-        c = float(c)
-    except (TypeError, ValueError):
-        raise UsageError(f"the level c must be a nonzero real number; got {c!r}") from None
-    if not math.isfinite(c) or c == 0.0:
-        raise UsageError(f"the level c must be a nonzero finite real number; got {c!r}")
-    return c
+    return circle.coupling(c, "level c")
 
 
 def _check_connection(A, group, what="A") -> np.ndarray:

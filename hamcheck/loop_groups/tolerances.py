@@ -10,18 +10,17 @@ family and live in ``hamcheck.circle.TOLERANCES``.
 
 from __future__ import annotations
 
-import dataclasses
 from dataclasses import dataclass
+
+from ..circle.tolerances import ToleranceRecord
 
 __all__ = ["LoopGroupTolerances", "TOLERANCES"]
 
 
-@dataclass(frozen=True)
-class LoopGroupTolerances:
-    """Named tolerances of the loop-group family (relative).
+@dataclass(frozen=True, eq=True)
+class LoopGroupTolerances(ToleranceRecord):
+    """Tolerances of :mod:`hamcheck.loop_groups`, relative, one field each:
 
-    Attributes
-    ----------
     holonomy:
         Target of the holonomy's error estimate (``circle.propagate``; the
         change between step counts over 63): successive holonomies then agree
@@ -48,10 +47,6 @@ class LoopGroupTolerances:
     gauge_action: float = 1e-10
     pairing: float = 1e-8
     resonance: float = 1e-12
-
-    def replace(self, **changes) -> "LoopGroupTolerances":
-        """A copy with some tolerances changed (unknown names raise TypeError)."""
-        return dataclasses.replace(self, **changes)
 
 
 TOLERANCES = LoopGroupTolerances()

@@ -41,15 +41,10 @@ Converting from other normalisations
 
 Orbit chart and model convention
 --------------------------------
-:func:`orbit_model` uses the chart ``F_x = theta + sum_n a_n cos n theta + b_n
-sin n theta`` (``x = (a_n1, b_n1, a_n2, b_n2, ...)``), the point
-``T(x) = Phi_{F_x} T0`` and the exact pulled-back KKS form
-``omega_ij = int d_i T (d_j F / F') dtheta``. Rotations ``r_t(theta) = theta + t``
-act on the orbit by the left coadjoint action ``Ad*_{r_t} = Phi_{r_{-t}}``, in
-the chart ``(a_n, b_n) -> R(n t)(a_n, b_n)``; the moment map is
-``mu(x) = int T(x) dtheta``. With ``delta_1 T = -X_rotation`` the identity
-``iota_{delta_X T} omega = -dH_X`` becomes ``iota_{X_rot} omega = +d mu``:
-declared as ``hamcheck.Convention(sign=+1, flow=+1)``.
+:func:`orbit_model` (module ``orbit_chart``) pulls the KKS form back exactly to
+a Fourier-truncated chart of diffeomorphisms; the rotations act with moment
+map ``int T dtheta`` in ``Convention(sign=+1, flow=+1)`` (derivation in that
+module's docstring).
 
 Example
 -------
@@ -81,41 +76,15 @@ from .orbit_chart import VirasoroOrbitChart, base_form_check, base_form_residual
 from .tolerances import TOLERANCES, VirasoroTolerances
 from .truncated import TruncatedVirasoro, check_user_action, truncated_algebra
 
+from . import diffeomorphisms, hill, localization, orbit_chart, tolerances, truncated
+
 __all__ = [
-    "Diffeo",
-    "schwarzian",
-    "schwarzian_from_derivatives",
-    "transform",
-    "delta",
-    "bracket",
-    "gelfand_fuchs",
-    "TruncatedVirasoro",
-    "truncated_algebra",
-    "check_user_action",
-    "Monodromy",
-    "hill_generator",
-    "monodromy",
-    "rotation_number",
-    "stabilizer_fourier",
-    "stabilizer_ode",
-    "constant_representative",
-    "classify",
-    "classify_file",
-    "format_classification",
-    "potential_from_developing_map",
-    "developing_map",
-    "orbit_model",
-    "VirasoroOrbitChart",
-    "kks_base_form",
-    "base_form_residual",
-    "base_form_check",
-    "chart_resolution_study",
-    "rotation_weights",
-    "zeta_one_loop",
-    "counterterm_sum",
-    "counterterm_limit",
-    "VirasoroTolerances",
-    "TOLERANCES",
+    *diffeomorphisms.__all__,
+    *truncated.__all__,
+    *hill.__all__,
+    *orbit_chart.__all__,
+    *localization.__all__,
+    *tolerances.__all__,
 ]
 
 #: former module-level tolerances, now fields of TOLERANCES (one release of grace)

@@ -15,7 +15,6 @@ True
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -90,14 +89,8 @@ def _as_periodic(T, what="T") -> circle.Periodic:
     return circle.Periodic.from_samples(arr).trimmed()
 
 
-def _check_c(c):
-    try:
-        c = float(c)
-    except (TypeError, ValueError):
-        raise UsageError(f"the central charge c must be a number; got {c!r}") from None
-    if not math.isfinite(c) or c == 0:
-        raise UsageError(f"the central charge c must be finite and non-zero; got {c}")
-    return c
+def _check_c(c) -> float:
+    return circle.coupling(c, "central charge c")
 
 
 def schwarzian_from_derivatives(F1, F2, F3):

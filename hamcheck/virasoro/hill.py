@@ -30,6 +30,7 @@ from .tolerances import TOLERANCES
 
 __all__ = [
     "Monodromy",
+    "hill_generator",
     "monodromy",
     "rotation_number",
     "stabilizer_fourier",

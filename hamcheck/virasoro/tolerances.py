@@ -10,14 +10,15 @@ groups and live in ``hamcheck.circle.TOLERANCES``.
 
 from __future__ import annotations
 
-import dataclasses
 from dataclasses import dataclass
+
+from ..circle.tolerances import ToleranceRecord
 
 __all__ = ["VirasoroTolerances", "TOLERANCES"]
 
 
 @dataclass(frozen=True)
-class VirasoroTolerances:
+class VirasoroTolerances(ToleranceRecord):
     """Named tolerances of the Virasoro family (relative).
 
     Attributes
@@ -46,10 +47,6 @@ class VirasoroTolerances:
     trace_class: float = 1e-9
     base_form: float = 1e-12
     resonance: float = 1e-9
-
-    def replace(self, **changes) -> "VirasoroTolerances":
-        """A copy with some tolerances changed (unknown names raise TypeError)."""
-        return dataclasses.replace(self, **changes)
 
 
 TOLERANCES = VirasoroTolerances()
