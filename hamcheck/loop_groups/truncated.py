@@ -39,8 +39,8 @@ class TruncatedLoopAlgebra:
     ``e_a`` of the group, the constant, then ``cos n theta, sin n theta`` for
     n = 1..K. Products are computed on ``4K + 2`` points and projected back to
     modes ``<= K``. ``reference`` is the standard cocycle ``c int <xi, eta'>``:
-    by affine.md's pairing identity ``-<delta_xi A, eta> - <A, [xi, eta]>``
-    equals it, so the standard action has ratio 1.
+    by the pairing identity (docs/references.md, Loop groups)
+    ``-<delta_xi A, eta> - <A, [xi, eta]>`` equals it, so the standard action has ratio 1.
     """
 
     K: int
