@@ -1,4 +1,4 @@
-"""Timings of hamcheck.affine: holonomy, stabilizers, orbit-chart checks.
+"""Timings of hamcheck.loop_groups: holonomy, stabilizers, orbit-chart checks.
 
 Prints tables of medians (and ratios to the smallest case). Run:
 
@@ -16,7 +16,8 @@ import time
 import numpy as np
 
 import hamcheck
-from hamcheck import affine as af
+from hamcheck import loop_groups as af
+from hamcheck.loop_groups.connections import _random_loop
 
 
 def median_time(fn, repeat):
@@ -47,7 +48,7 @@ def holonomy_table(repeat):
         M = 4 * modes
         A = smooth_connection(modes, M, rng)
         t, H = median_time(lambda: af.holonomy(A, 1.0), repeat)
-        g = af._random_loop(af.SU2, rng, M, scale=0.3)
+        g = _random_loop(af.SU2, rng, M, scale=0.3)
         Hg = af.holonomy(af.gauge_action(g, A, 1.0), 1.0).matrix
         cov = np.abs(Hg - af.SU2.conj(g.values[0], H.matrix)).max()
         base = base or t
@@ -59,7 +60,7 @@ def stabilizer_table(repeat):
     print("\nstabilizer dimension of g.(a e_3), a/c = 1 (dimension 3), two ways")
     print(f"{'M':>6} {'fourier modes':>14} {'fourier s':>10} {'transport s':>12} {'dims':>6}")
     for M in (32, 64, 128):
-        g = af._random_loop(af.SU2, rng, M, scale=0.3)
+        g = _random_loop(af.SU2, rng, M, scale=0.3)
         A = af.gauge_action(g, af.constant_connection(1.0, M), 1.0)
         tf, f = median_time(lambda: af.stabilizer_dimension_fourier(A, 1.0), repeat)
         tt, t_ = median_time(lambda: af.stabilizer_dimension_transport(A, 1.0), repeat)
@@ -86,7 +87,7 @@ def resolution_table():
     t0 = time.perf_counter()
     s = af.orbit_resolution_study(0.3, 1.0, 2, grids=(8, 16, 24, 32, 48), points=4)
     print(s.table())
-    print(f"({time.perf_counter() - t0:.2f} s, one compilation for all grids)")
+    print(f"({time.perf_counter() - t0:.2f} s, one hamcheck.check (one compilation) per grid)")
     try:
         print("plot:", s.plot("bench_affine_resolution.png"))
     except hamcheck.UsageError as exc:

@@ -19,6 +19,7 @@ import numpy as np
 
 import hamcheck
 from hamcheck import circle, virasoro
+from hamcheck.virasoro.hill import _class_of
 
 
 def timed(fn, repeats):
@@ -49,7 +50,7 @@ def main(argv=None):
     def invariants():
         m = virasoro.monodromy(T, 1.0, tol=1e-12)
         P = m.fundamental()
-        return m, virasoro._class_of(m), virasoro.rotation_number(m, P)
+        return m, _class_of(m), virasoro.rotation_number(m, P)
 
     t_inv, (m, cls, rho) = timed(invariants, args.repeats)
     ref = virasoro.monodromy(T, 1.0, min_steps=4 * m.steps)  # 4x the steps: error ~ 4^-6 of ours

@@ -38,8 +38,8 @@ __all__ = ["main", "load_models", "SUBCOMMANDS", "build_parser"]
 #: ``function(subparsers)`` adds its parser and sets ``run=callable(args) -> int``
 #: as a default. Imported lazily, only when the command line is parsed.
 SUBCOMMANDS: list[tuple[str, str]] = [
-    ("holonomy", "hamcheck.affine:add_holonomy_parser"),
-    ("classify", "hamcheck.virasoro:add_classify_parser"),
+    ("holonomy", "hamcheck.cli:add_holonomy_parser"),
+    ("classify", "hamcheck.cli:add_classify_parser"),
 ]
 
 model_files = collect_files  # the name this module used before batch.py existed
@@ -163,6 +163,42 @@ def run_check(args) -> int:
     if args.csv:
         _write(args.csv, run.to_csv())
     return run.exit_code
+
+
+def add_classify_parser(sub) -> None:
+    """``hamcheck classify FILE [--c C] [--json]``: a Hill potential's orbit (hamcheck.virasoro.classify_file)."""
+    p = sub.add_parser("classify", help="class, monodromy, rotation number and stabilizer of a Hill potential T in a file")
+    p.add_argument("file", metavar="FILE", help=".npy/.csv samples of T on a uniform grid, or a .py file defining T and c")
+    p.add_argument("--c", type=float, default=None, help="the central charge c (else c from a .py file)")
+    p.add_argument("--json", action="store_true", help="print JSON instead of text")
+    p.set_defaults(run=run_classify)
+
+
+def run_classify(args) -> int:
+    from .virasoro import classify_file
+
+    result = classify_file(args.file, args.c)
+    _print(result.to_json() if args.json else result.text())
+    return 0
+
+
+def add_holonomy_parser(sub) -> None:
+    """``hamcheck holonomy FILE [--c C] [--group SU2|SO3|U1|SU3] [--json]`` (hamcheck.loop_groups.classify_file)."""
+    p = sub.add_parser("holonomy", help="holonomy, conjugacy class and stabilizer of a connection A dtheta in a file")
+    p.add_argument("file", metavar="FILE", help=".npy/.csv (M rows x 3 columns for SU(2)) or .py defining A and c")
+    p.add_argument("--c", type=float, default=None, help="the level c (else c from a .py file)")
+    p.add_argument("--group", choices=("SU2", "SO3", "U1", "SU3"), default="SU2", help="structure group (default SU2)")
+    p.add_argument("--json", action="store_true", help="print JSON instead of text")
+    p.set_defaults(run=run_holonomy)
+
+
+def run_holonomy(args) -> int:
+    from . import loop_groups
+
+    group = loop_groups.SU(3) if args.group == "SU3" else getattr(loop_groups, args.group)
+    result = loop_groups.classify_file(args.file, args.c, group=group)
+    _print(result.to_json() if args.json else result.text())
+    return 0
 
 
 def build_parser() -> argparse.ArgumentParser:

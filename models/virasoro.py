@@ -1,4 +1,4 @@
-"""Virasoro coadjoint orbits in Fourier-truncated charts (shared/reference/virasoro.md).
+"""Virasoro coadjoint orbits in Fourier-truncated charts (hamcheck.virasoro; docs/references.md, Virasoro).
 
 Invented scenario: a flexible ring resonator whose shape is a reparametrisation
 F of the circle; its "tension profile" T = Phi_F T0 lies on the coadjoint orbit

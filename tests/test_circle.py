@@ -158,3 +158,56 @@ def test_resolution_study_verdicts_and_plot(tmp_path):
     assert "verdict" in study.table()
     with pytest.raises(hamcheck.UsageError, match="strictly increasing"):
         circle.resolution_study(lambda n: 1.0, [4, 2])
+
+
+# ------------------------------------------------------------- propagator
+def test_propagator_matches_dop853_has_order_six_and_raises_when_it_cannot_converge():
+    # psi'' + q psi = 0 with q = 0.4 + 0.3 cos t; independent oracle: scipy's DOP853 (common practice)
+    from scipy.integrate import solve_ivp
+
+    q = circle.Periodic.from_real_modes([1], [0.3], [0.0], a0=0.4)
+    co = np.zeros((3, 2, 2), complex)
+    co[:, 1, 0] = -q.coefficients
+    co[0, 0, 1] = 1.0
+    gen = circle.Periodic(co, q.wavenumbers, True)
+    P = circle.propagate(gen, expm=circle.expm_traceless2)
+    rhs = lambda t, y: (np.array([[0, 1], [-float(q(np.array([t]))[0]), 0]]) @ y.reshape(2, 2)).ravel()  # noqa: E731
+    ref = solve_ivp(rhs, (0, 2 * np.pi), np.eye(2).ravel(), method="DOP853", rtol=1e-13, atol=1e-14).y[:, -1].reshape(2, 2)
+    assert P.matrix == pytest.approx(ref, abs=1e-10) and P.error <= circle.TOLERANCES.propagator
+    # the generic exponential (scipy's expm) gives the same matrix
+    assert circle.propagate(gen).matrix == pytest.approx(P.matrix, abs=1e-13)
+    # sixth order (Blanes, Casas, Oteo, Ros 2009, from memory): halving the step divides the error by ~64
+    e = [np.abs(circle.transport(gen, N, circle.expm_traceless2) - P.matrix).max() for N in (16, 32)]
+    assert 40 < e[0] / e[1] < 90
+    # the fundamental solution ends at the monodromy and starts at I
+    F = P.fundamental()
+    assert F.shape == (P.steps + 1, 2, 2) and F[0] == pytest.approx(np.eye(2)) and F[-1] == pytest.approx(P.matrix, abs=1e-13)
+    # negative control: a step budget that cannot reach the target raises, naming what to change
+    with pytest.raises(hamcheck.ConvergenceError, match="raise max_steps or tol"):
+        circle.propagate(gen, expm=circle.expm_traceless2, min_steps=4, max_steps=16)
+    with pytest.raises(hamcheck.UsageError, match="square-matrix values"):
+        circle.propagate(q)
+
+
+def test_kernel_threshold_and_subspace_distance():
+    # one threshold: relative singular values at or below TOLERANCES.stabilizer are kernel directions
+    k = circle.kernel(np.diag([1.0, 0.5, 0.5 * circle.TOLERANCES.stabilizer, 1e-6]))
+    assert k.dim == 1 and abs(k.basis[0, 2]) == pytest.approx(1.0)
+    # the propagated matrix's error widens the threshold (never decided finer than the data)
+    assert circle.kernel(np.diag([1.0, 1e-7]), error=1e-9).dim == 1
+    assert circle.kernel(np.diag([1.0, 1e-7])).dim == 0  # negative control
+    # a wide matrix has a kernel of at least (columns - rows)
+    assert circle.kernel(np.ones((1, 3))).dim == 2
+    # principal angles: the same span at any basis, inf for different dimensions
+    A = np.array([[1.0, 0, 0], [0, 1.0, 0]])
+    assert circle.subspace_distance(A, np.array([[1.0, 1.0, 0], [1.0, -1.0, 0]])) < 1e-15
+    assert circle.subspace_distance(A, A[:1]) == float("inf")
+    assert circle.subspace_distance(A, np.array([[1.0, 0, 0], [0, 0, 1.0]])) == pytest.approx(1.0)
+
+
+def test_check_resolution_study_rejects_checks_without_an_upper_tolerance():
+    with pytest.raises(hamcheck.UsageError, match="subset"):
+        circle.check_resolution_study(lambda M: None, [8, 16], checks=("nondegenerate",))
+    # closedness alone never verifies a form (the moment checks did not run)
+    only_closed = circle.summarize_resolution([8, 16], {"closed": [1e-3, 1e-16]})
+    assert not only_closed.verified and "NOT verified" in only_closed.verdict
