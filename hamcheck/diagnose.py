@@ -64,17 +64,17 @@ def at(ev: Evidence) -> str:
     return f"at x = {vec(ev.worst_point)}"
 
 
-def fails_at_worst(note: str, kind: str, message: Callable[[float, str], str], key: str = "residual"):
+def fails_at_worst(note: str, kind: str, message: str, key: str = "residual"):
     """The diagnosis of a check whose failure has one cause: one finding at the worst point.
 
-    ``message(residual, where)`` words it; ``where`` is ``"at x = (...)"``.
+    ``message`` is a template with the fields ``{r}`` (the worst residual) and
+    ``{where}`` (``"at x = (...)"``).
     """
 
     def diagnose(ev: Evidence) -> Diagnosis:
         if not ev.failed:
             return Diagnosis()
         r = ev.worst_residual
-        return Diagnosis(note, ((kind, message(r, at(ev)), {"point": ev.worst_point, key: r}),))
+        return Diagnosis(note, ((kind, message.format(r=r, where=at(ev)), {"point": ev.worst_point, key: r}),))
 
     return diagnose
-

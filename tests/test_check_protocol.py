@@ -17,7 +17,7 @@ import pytest
 
 import hamcheck
 from hamcheck.checks import _registry
-from hamcheck.checks._base import Check, Tolerance
+from hamcheck.checks._base import TINY, Check, Tolerance
 from hamcheck.diagnose import fails_at_worst
 
 
@@ -28,7 +28,7 @@ def statement(sign, flow):
 
 def zero_diagonal(model, x, probe):
     W = model.form_at(x)
-    return {"residual": jnp.max(jnp.abs(jnp.diag(W))) / jnp.maximum(jnp.max(jnp.abs(W)), 1e-300)}
+    return {"residual": jnp.max(jnp.abs(jnp.diag(W))) / jnp.maximum(jnp.max(jnp.abs(W)), TINY)}
 
 
 TOLERANCE = Tolerance(1e-12, "no derivative involved: only round-off of the user's form, <= 3e-16")
@@ -37,7 +37,7 @@ ZERO_DIAGONAL = Check(
     "zero_diagonal", statement, zero_diagonal, TOLERANCE,
     diagnose=fails_at_worst(
         "omega has a diagonal", "nonzero-diagonal",
-        lambda r, where: f"omega_ii is {r:.2e} of |omega| {where}. Fix: return A - A^T",
+        "omega_ii is {r:.2e} of |omega| {where}. Fix: return A - A^T",
     ),
     finding_kinds=("nonzero-diagonal",),
 )

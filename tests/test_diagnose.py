@@ -11,7 +11,7 @@ def _evidence(failed):
 
 
 def test_one_cause_diagnosis_names_the_worst_point():
-    diagnose = fails_at_worst("bad", "planted", lambda r, where: f"residual {r:.2f} {where}")
+    diagnose = fails_at_worst("bad", "planted", "residual {r:.2f} {where}")
     d = diagnose(_evidence(True))
     assert d.note == "bad"
     ((kind, message, data),) = d.findings

@@ -31,11 +31,8 @@ TOLERANCE = Tolerance(
 diagnose = fails_at_worst(
     "form(x) is not antisymmetric",
     "not-antisymmetric",
-    lambda r, where: (
-        f"form(x) + form(x)^T is {r:.2e} of |form| {where}; a 2-form's matrix must "
-        "satisfy omega_ij = -omega_ji. Fix: return A - A^T for the intended coefficients A (mind the "
-        "factor: dx^dy has matrix [[0, 1], [-1, 0]])"
-    ),
+    "form(x) + form(x)^T is {r:.2e} of |form| {where}; a 2-form's matrix must satisfy omega_ij = -omega_ji. "
+    "Fix: return A - A^T for the intended coefficients A (mind the factor: dx^dy has matrix [[0, 1], [-1, 0]])",
 )
 
 CHECK = Check(

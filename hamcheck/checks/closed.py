@@ -77,13 +77,9 @@ def probes(model, rng, n, settings):
 TOLERANCE = Tolerance(1e-12, FIRST_DERIVATIVES, 1e-8, CENTRAL_DIFFERENCES)
 
 diagnose = fails_at_worst(
-    "d omega != 0",
-    "not-closed",
-    lambda r, where: (
-        f"d omega does not vanish: relative residual {r:.2e} {where}. Fix: the "
-        "coefficients of omega are not those of a closed form; recompute them (e.g. from a potential, "
-        "omega = d theta or (i/2) d dbar K) and check each partial derivative"
-    ),
+    "d omega != 0", "not-closed", "d omega does not vanish: relative residual {r:.2e} {where}. Fix: the coefficients "
+    "of omega are not those of a closed form; recompute them (e.g. from a potential, omega = d theta or (i/2) d dbar K) "
+    "and check each partial derivative",
 )
 
 CHECK = Check("closed", statement, closed, TOLERANCE, diagnose=diagnose, probes=probes, finding_kinds=("not-closed",))

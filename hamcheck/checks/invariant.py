@@ -46,15 +46,10 @@ def invariant(model, x, probe):
 
 TOLERANCE = Tolerance(1e-12, FIRST_DERIVATIVES, 1e-6, NESTED_DIFFERENCES)
 
-diagnose = fails_at_worst(
-    "L_X omega != 0",
-    "not-invariant",
-    lambda r, where: (
-        f"the group does not preserve omega: L_X omega has relative size {r:.2e} "
-        f"{where}. Fix: check that the action (or the vector fields) is the one that preserves this "
-        "form; a Hamiltonian action must be symplectic"
-    ),
-)
+diagnose = fails_at_worst("L_X omega != 0", "not-invariant", (
+    "the group does not preserve omega: L_X omega has relative size {r:.2e} {where}. Fix: check that the action (or "
+    "the vector fields) is the one that preserves this form; a Hamiltonian action must be symplectic"
+))
 
 CHECK = Check(
     "invariant", statement, invariant, TOLERANCE, diagnose=diagnose, probes=probes, finding_kinds=("not-invariant",)
