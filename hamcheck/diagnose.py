@@ -18,7 +18,6 @@ points (a sign, a factor per generator, a constant offset, a constant
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
