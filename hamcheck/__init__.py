@@ -10,13 +10,12 @@ configuration is changed.
 """
 
 from .algebra import LieAlgebra
-from .checks import CHECK_NAMES
-from .diagnose import FINDING_KINDS
+from .checks import CHECK_NAMES, FINDING_KINDS
 from .errors import ConvergenceError, FrozenModelError, HamcheckError, LoadError, ModelError, UsageError
 from .model import Convention, Model
 from .numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
 from .report import CheckResult, Finding, Report
-from .suite import Settings, check
+from .checks.run import Settings, check
 from .orbits import coadjoint_orbit
 from .consequences import fixed_points, flow, lattice_count, localization, moment_image, reduce
 

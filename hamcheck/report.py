@@ -6,7 +6,8 @@
 
 The JSON layout is versioned by :data:`SCHEMA_VERSION` and documented in
 ``docs/report-schema.md``; ``tests/test_report.py`` pins it. Add fields
-freely; renaming or removing one bumps the version.
+freely; renaming or removing one, or changing its meaning, bumps the version
+(:meth:`Report.from_dict` still reads every older version).
 
 Example
 -------
@@ -25,6 +26,8 @@ from typing import Mapping
 
 import numpy as np
 
+from .errors import UsageError
+
 __all__ = [
     "CSV_COLUMNS",
     "CheckResult",
@@ -38,7 +41,9 @@ __all__ = [
     "STATUSES",
 ]
 
-SCHEMA_VERSION = 1
+#: 2: results carry ``compare`` and state their condition in the model's convention (1: the default one).
+SCHEMA_VERSION = 2
+READABLE_SCHEMAS = (1, 2)
 STATUSES = ("pass", "fail", "error", "skip")
 #: Names under which faults of the model's own functions are reported.
 USER_FUNCTIONS = ("form", "moment", "vector_fields", "action", "sample")
@@ -72,13 +77,27 @@ def _plain(value):
     return value
 
 
+_RELATIONS = {"below": "<=", "above": ">="}
+
+
+def _field(data: Mapping, key: str, what: str):
+    """``data[key]``, or a :class:`hamcheck.UsageError` naming the missing field."""
+    try:
+        return data[key]
+    except (KeyError, TypeError):
+        raise UsageError(f"{what} document lacks the field {key!r} (see docs/report-schema.md)") from None
+
+
 @dataclass(frozen=True)
 class CheckResult:
     """Outcome of one check over all sampled points.
 
-    ``residual`` is the worst relative residual (for ``nondegenerate``: the
-    smallest relative singular value, which must stay *above* ``tolerance``);
-    ``worst_point`` the chart coordinates where it occurred.
+    ``residual`` is the worst value over the points and ``compare`` says which
+    way it is held against ``tolerance``: ``"below"`` (a relative defect, the
+    worst is the largest) or ``"above"`` (a margin such as the smallest relative
+    singular value, the worst is the smallest); ``worst_point`` the chart
+    coordinates where it occurred; ``statement`` the condition tested, in the
+    model's convention (what ``--explain`` prints).
     """
 
     name: str
@@ -90,13 +109,22 @@ class CheckResult:
     points: int = 0
     statement: str = ""
     replay: str = ""
+    compare: str = "below"
+
+    def __post_init__(self):
+        if self.compare not in _RELATIONS:
+            raise UsageError(f"CheckResult {self.name!r}: compare={self.compare!r}; expected one of {tuple(_RELATIONS)}")
+
+    @property
+    def relation(self) -> str:
+        """``<=`` or ``>=``: how the residual must stand to the tolerance."""
+        return _RELATIONS[self.compare]
 
     def __repr__(self) -> str:
         if self.residual is None:
             return f"CheckResult({self.name}: {self.status}, points={self.points})"
-        rel = ">=" if self.name == "nondegenerate" else "<="
         return (
-            f"CheckResult({self.name}: {self.status}, residual={_fmt(self.residual)} {rel} "
+            f"CheckResult({self.name}: {self.status}, residual={_fmt(self.residual)} {self.relation} "
             f"{_fmt(self.tolerance)}, points={self.points})"
         )
 
@@ -107,9 +135,10 @@ class CheckResult:
 
         wp = data.get("worst_point")
         return cls(
-            data["name"], data["status"], num(data.get("residual")), num(data.get("tolerance")),
-            None if wp is None else tuple(float(v) for v in wp), data.get("message", ""),
+            _field(data, "name", "result"), _field(data, "status", "result"), num(data.get("residual")),
+            num(data.get("tolerance")), None if wp is None else tuple(float(v) for v in wp), data.get("message", ""),
             int(data.get("points", 0)), data.get("statement", ""), data.get("replay", ""),
+            data.get("compare", "below"),
         )
 
     def to_dict(self) -> dict:
@@ -124,6 +153,7 @@ class CheckResult:
                 "message": self.message,
                 "statement": self.statement,
                 "replay": self.replay,
+                "compare": self.compare,
             }
         )
 
@@ -143,7 +173,10 @@ class Finding:
 
     @classmethod
     def from_dict(cls, data: Mapping) -> "Finding":
-        return cls(data["kind"], data.get("message", ""), dict(data.get("data", {})), data.get("check", ""), data.get("replay", ""))
+        return cls(
+            _field(data, "kind", "finding"), data.get("message", ""), dict(data.get("data", {})), data.get("check", ""),
+            data.get("replay", ""),
+        )
 
     def to_dict(self) -> dict:
         return _plain(
@@ -212,7 +245,7 @@ class Report:
             f"  {'check':<20}{'status':<8}{'residual':>10}  {'tolerance':>10}  note",
         ]
         for r in self.results.values():
-            rel = ">=" if r.name == "nondegenerate" and r.residual is not None else "<="
+            rel = r.relation if r.residual is not None else "<="
             tol = f"{rel} {_fmt(r.tolerance)}" if r.tolerance is not None else "-"
             note = r.message.splitlines()[0] if r.message else ""
             lines.append(f"  {r.name:<20}{r.status:<8}{_fmt(r.residual):>10}  {tol:>10}  {note}")
@@ -244,18 +277,30 @@ class Report:
 
     @classmethod
     def from_dict(cls, data: Mapping) -> "Report":
-        """Inverse of :meth:`to_dict` (numbers come back as Python floats and lists)."""
+        """Inverse of :meth:`to_dict` (numbers come back as Python floats and lists).
+
+        Reads every version in :data:`READABLE_SCHEMAS`; an older document is
+        migrated (see ``docs/report-schema.md``) and writes back as the current
+        version. Anything else raises :class:`hamcheck.UsageError`.
+        """
+        if not isinstance(data, Mapping):
+            raise UsageError(f"a report document is a JSON object; got {type(data).__name__}")
         schema = data.get("schema")
-        if schema != SCHEMA_VERSION:
-            raise ValueError(f"report schema {schema!r} is not the supported version {SCHEMA_VERSION}")
+        if schema not in READABLE_SCHEMAS:
+            raise UsageError(
+                f"report schema {schema!r} is not a supported version (this hamcheck reads {list(READABLE_SCHEMAS)})"
+            )
         conv = data.get("convention")
+        results = {n: CheckResult.from_dict(r) for n, r in _field(data, "results", "report").items()}
+        if schema == 1:
+            results = {n: _from_version_1(r, conv) for n, r in results.items()}
         return cls(
-            model=data["model"],
+            model=_field(data, "model", "report"),
             source=data.get("source"),
-            seed=data["seed"],
-            points=data["points"],
+            seed=_field(data, "seed", "report"),
+            points=_field(data, "points", "report"),
             derivatives=data.get("derivatives", ""),
-            results={n: CheckResult.from_dict(r) for n, r in data["results"].items()},
+            results=results,
             findings=tuple(Finding.from_dict(f) for f in data.get("findings", ())),
             diagnoses=tuple(Finding.from_dict(f) for f in data.get("diagnoses", ())),
             seconds=float(data.get("seconds", 0.0)),
@@ -294,6 +339,26 @@ class Report:
         return "\n".join(out) + "\n"
 
 
+def _from_version_1(result: CheckResult, convention) -> CheckResult:
+    """Version 1 kept no comparison direction and stated the condition in the default convention.
+
+    A check hamcheck knows gets both from its registry entry (its statement in
+    the document's convention); a result of any other name keeps its statement
+    and compares ``below``, as every such result of version 1 did.
+    """
+    import dataclasses
+
+    from .checks import check_named
+    from .errors import UnknownNameError
+
+    try:
+        c = check_named(result.name)
+    except UnknownNameError:
+        return result
+    conv = (1, 1) if convention is None else (convention["sign"], convention["flow"])
+    return dataclasses.replace(result, compare=c.compare, statement=c.state(conv))
+
+
 # ------------------------------------------------------------------ runs
 #: statuses of one row of a run's summary; the last five mean "could not be checked"
 OUTCOME_STATUSES = ("pass", "fail", "load-error", "no-model", "timeout", "out-of-memory", "crashed")
@@ -321,7 +386,7 @@ class Outcome:
 
     def __post_init__(self):
         if self.status not in OUTCOME_STATUSES:
-            raise ValueError(f"outcome status {self.status!r} is not one of {OUTCOME_STATUSES}")
+            raise UsageError(f"outcome status {self.status!r} is not one of {OUTCOME_STATUSES}")
         object.__setattr__(self, "failing_checks", tuple(self.failing_checks))
         object.__setattr__(self, "findings", tuple(self.findings))
 
@@ -351,7 +416,7 @@ class Outcome:
     @classmethod
     def from_dict(cls, data: Mapping) -> "Outcome":
         return cls(
-            data["file"], data.get("model"), data["status"], tuple(data.get("failing_checks", ())),
+            _field(data, "file", "outcome"), data.get("model"), _field(data, "status", "outcome"), tuple(data.get("failing_checks", ())),
             tuple(data.get("findings", ())), data.get("message", ""), data.get("replay", ""),
             float(data.get("seconds", 0.0)),
         )

@@ -1,4 +1,4 @@
-"""The report schema (version 1) is pinned here; docs/report-schema.md documents it.
+"""The report schema (version 2) is pinned here; docs/report-schema.md documents it.
 
 Adding a field means adding it to the pinned sets below (and to the docs);
 renaming or removing one means bumping SCHEMA_VERSION.
@@ -33,7 +33,9 @@ REPORT_KEYS = {
     "schema", "model", "source", "seed", "points", "derivatives", "passed", "seconds",
     "results", "findings", "diagnoses", "convention",
 }
-RESULT_KEYS = {"name", "status", "residual", "tolerance", "worst_point", "points", "message", "statement", "replay"}
+RESULT_KEYS = {
+    "name", "status", "residual", "tolerance", "worst_point", "points", "message", "statement", "replay", "compare",
+}
 FINDING_KEYS = {"kind", "check", "message", "data", "replay"}
 RUN_KEYS = {"schema", "kind", "hamcheck", "options", "seconds", "counts", "exit_code", "outcomes", "reports"}
 OUTCOME_KEYS = {"file", "model", "status", "failing_checks", "findings", "message", "replay", "seconds"}
@@ -57,19 +59,20 @@ def flipped_report():
 
 
 def _handmade(status="fail", sign=1, flow=1):
+    # moment_map carries no statement: a hand-made result is stated from the registry in the report's convention
     results = {
         "closed": CheckResult("closed", "pass", 1e-16, 1e-12, (0.1, 0.2), "holds at 4 points", 4, "d omega = 0"),
         "moment_map": CheckResult(
             "moment_map", status, 2.0 if status == "fail" else 1e-16, 1e-12, (0.5, -1.0),
-            "mu has the opposite sign | really", 4, "the moment equation", "hamcheck check m.py --model m --only moment_map",
+            "mu has the opposite sign | really", 4, "", "hamcheck check m.py --model m --only moment_map",
         ),
     }
     findings = (Finding("moment-sign", "negate mu", {"ratio": np.float64(-1.0)}, "moment_map", "replay it"),) if status == "fail" else ()
     return Report("m", "m.py", 7, 4, "autodiff", results, findings, (), 0.25, (sign, flow))
 
 
-def test_schema_version_is_one():
-    assert SCHEMA_VERSION == 1
+def test_schema_version_is_two():
+    assert SCHEMA_VERSION == 2
 
 
 def test_real_report_dict_has_exactly_the_pinned_keys(flipped_report):
@@ -101,6 +104,55 @@ def test_from_dict_refuses_another_schema_version(flipped_report):
     d = flipped_report.to_dict() | {"schema": 99}
     with pytest.raises(ValueError, match="schema 99"):
         Report.from_dict(d)
+    with pytest.raises(hamcheck.UsageError, match="schema 99"):
+        Report.from_dict(d)
+
+
+def test_from_dict_names_a_missing_field(flipped_report):
+    d = flipped_report.to_dict()
+    del d["results"]["moment_map"]["status"]
+    with pytest.raises(hamcheck.HamcheckError, match="lacks the field 'status'"):
+        Report.from_dict(d)
+    with pytest.raises(hamcheck.UsageError, match="lacks the field 'seed'"):
+        Report.from_dict({k: v for k, v in flipped_report.to_dict().items() if k != "seed"})
+    with pytest.raises(hamcheck.UsageError, match="JSON object"):
+        Report.from_dict([1, 2])
+
+
+def _version_1(report_dict):
+    """A version-1 document: no compare, statements in the default convention (as hamcheck 0.1 wrote them)."""
+    d = json.loads(json.dumps(report_dict)) | {"schema": 1}
+    for r in d["results"].values():
+        del r["compare"]
+        r["statement"] = "the moment equation"
+    return d
+
+
+def test_version_1_documents_are_migrated(flipped_report):
+    old = _version_1(flipped_report.to_dict())
+    back = Report.from_dict(old)
+    assert back.to_dict()["schema"] == SCHEMA_VERSION
+    assert back.results == flipped_report.results  # comparison and statement restored from the registry
+    # nondegenerate compared *above* its tolerance in version 1 too; the migration keeps that
+    nd = {"name": "nondegenerate", "status": "pass", "residual": 0.5, "tolerance": 1e-10, "points": 3}
+    v1 = {"schema": 1, "model": "m", "seed": 0, "points": 3, "results": {"nondegenerate": nd, "kks_base_form": nd | {
+        "name": "kks_base_form", "statement": "omega at the base point is the mode formula"}}}
+    migrated = Report.from_dict(v1).results
+    assert migrated["nondegenerate"].compare == "above" and "must stay ABOVE" in migrated["nondegenerate"].statement
+    assert migrated["kks_base_form"].compare == "below"  # a name hamcheck does not know keeps its own statement
+    assert migrated["kks_base_form"].statement == "omega at the base point is the mode formula"
+
+
+def test_comparison_direction_is_data_not_a_name():
+    above = CheckResult("margin", "pass", 0.5, 1e-10, None, "", 3, compare="above")
+    assert repr(above) == "CheckResult(margin: pass, residual=5.0e-01 >= 1.0e-10, points=3)"
+    below = CheckResult("nondegenerate", "pass", 0.5, 1e-10, None, "", 3)
+    assert "<=" in repr(below)  # the name alone says nothing
+    rep = Report("m", None, 0, 3, "autodiff", {"margin": above})
+    assert ">= 1.0e-10" in str(rep) and "<=" not in str(rep).split("margin", 1)[1].splitlines()[0]
+    assert CheckResult.from_dict(above.to_dict()) == above
+    with pytest.raises(hamcheck.UsageError, match="compare='sideways'"):
+        CheckResult("m", "pass", 0.5, 1e-10, None, "", 3, compare="sideways")
 
 
 def test_non_finite_numbers_survive_json():
@@ -147,6 +199,18 @@ def test_explain_equivariance_uses_sign_times_flow():
     assert "(flow = -1): [X_a, X_b] = X_[e_a,e_b]" in text  # left action: [X, Y] = -flow X_[.,.]
 
 
+def test_explain_renders_the_statement_each_result_carries(flipped_report):
+    # a real report states its condition in the model's convention (here the default one)
+    text = " ".join(flipped_report.explain().split())
+    assert "Condition: the moment equation, with sign = +1: X_a^i omega_ij = d_j mu_a" in text
+    # a result made outside the axiom runner (e.g. by cocycles or virasoro) explains itself the same way
+    outside = CheckResult("central-ratio", "fail", 0.16, 1e-9, None, "ratio 1/6", 1,
+                          "the central term is c/12 times Gelfand-Fuchs", compare="above")
+    text = " ".join(Report("m", None, 0, 1, "autodiff", {"central-ratio": outside}).explain().split())
+    assert "Condition: the central term is c/12 times Gelfand-Fuchs" in text
+    assert "(must be >= 1.0e-09)" in text  # its direction comes from the result, not from its name
+
+
 def test_explain_is_empty_when_everything_passed():
     assert _handmade(status="pass").explain() == ""
 
@@ -191,6 +255,8 @@ def test_outcome_of_a_failing_report_carries_checks_findings_and_replay():
 def test_outcome_refuses_an_unknown_status():
     with pytest.raises(ValueError, match="not one of"):
         Outcome("a.py", None, "exploded")
+    with pytest.raises(hamcheck.UsageError, match="lacks the field 'status'"):
+        Outcome.from_dict({"file": "a.py"})
 
 
 @pytest.mark.parametrize(

@@ -11,6 +11,7 @@ import numpy as np
 
 from .._jax import jax, jnp
 from .. import cache as _cache
+from .._fields import hamiltonian_field  # noqa: F401  (one definition, shared with the flow check)
 from ..errors import UsageError
 from ..model import Model
 
@@ -90,13 +91,6 @@ def check_commuting(model: Model, B: np.ndarray, what: str) -> None:
 def field_along(model: Model, x, xi):
     """``X_xi(x) = sum_a xi_a X_{e_a}(x)`` (with the convention's flow sign)."""
     return xi @ model.fields_at(x)
-
-
-def hamiltonian_field(model: Model, x, xi):
-    """Solve ``v^i omega_ij = sign d_j <mu, xi>`` for ``v`` (equals ``X_xi`` in a correct model)."""
-    W = model.form_at(x)
-    dH = jax.grad(lambda y: model.moment_at(y) @ xi)(x)
-    return jnp.linalg.solve(W.T, model.convention.sign * dH)
 
 
 def log_liouville(model: Model, x):

@@ -1,0 +1,148 @@
+"""``nondegenerate``: the smallest singular value of omega is not negligible (it must stay ABOVE its tolerance).
+
+The value compared is the smallest singular value over ``max(largest here,
+median largest over the sample)``: a 2x2 antisymmetric matrix has equal singular
+values, so the plain ratio cannot see a form shrinking to zero. From the worst
+samples an L-BFGS-B search (inside the sample's bounding box) looks for
+degenerate points between them.
+
+>>> from hamcheck.checks.nondegenerate import CHECK
+>>> CHECK.compare
+'above'
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .._jax import jax, jnp
+from ..cache import compiled
+from ..diagnose import Diagnosis, at
+from ._base import TINY, Check, Tolerance
+
+
+def statement(sign: int, flow: int) -> str:
+    return (
+        "omega is nondegenerate: the matrix omega_ij(x) is invertible everywhere. The residual is its "
+        "smallest singular value relative to its typical largest one, and must stay ABOVE the tolerance."
+    )
+
+
+def nondegenerate(model, x, probe):
+    s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
+    return {"residual": s[-1] / jnp.maximum(s[0], TINY), "smax": s[0]}
+
+
+def relative_to_typical_scale(out) -> np.ndarray:
+    """smallest singular value over max(largest here, median largest over points).
+
+    A 2x2 antisymmetric matrix has equal singular values, so the plain ratio
+    cannot see a form that shrinks to zero; measuring against the typical size
+    of the form over the sample can.
+    """
+    smax = np.asarray(out["smax"], dtype=float)
+    smin = np.asarray(out["residual"], dtype=float) * smax
+    finite = np.isfinite(smax)
+    typical = np.median(smax[finite]) if finite.any() else 1.0
+    return smin / np.maximum(np.maximum(smax, typical), np.finfo(float).tiny)
+
+
+def search_degenerate(model, pts, r, out, settings):
+    """Local minimisation of the relative smallest singular value from the worst samples."""
+    if settings.search_starts <= 0 or pts.shape[0] == 0:
+        return pts, r, "no search for degenerate points (search_starts=0)"
+    from scipy.optimize import minimize
+
+    typical = float(np.median(out["smax"]))
+    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    if model.traced:
+        def build(model):
+            # the typical scale is an argument, so the program is reused across calls
+            def ratio_t(x, t):
+                s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
+                return s[-1] / jnp.maximum(jnp.maximum(s[0], t), 1e-300)
+
+            return jax.jit(jax.value_and_grad(ratio_t))
+
+        grad_fn = compiled(model, "degeneracy-search", build)
+        fun = lambda x: grad_fn(x, typical)  # noqa: E731
+
+        def objective(x):
+            v, g = fun(jnp.asarray(x))
+            v, g = float(v), np.asarray(g, dtype=float)
+            return (v, g) if np.isfinite(v) and np.all(np.isfinite(g)) else (1e300, np.zeros_like(x))
+
+        jac = True
+    else:
+        def objective(x):
+            try:
+                s = np.linalg.svd(np.asarray(model.form(np.asarray(x)), dtype=float), compute_uv=False)
+            except Exception:
+                return 1e300
+            v = s[-1] / max(s[0], typical, 1e-300)
+            return v if np.isfinite(v) else 1e300
+
+        jac = False
+    starts = np.argsort(r)[: settings.search_starts if model.dim <= 64 else 1]
+    found_x, found_r = [], []
+    for i in starts:
+        try:
+            sol = minimize(
+                objective, pts[i], jac=jac, method="L-BFGS-B", bounds=list(zip(lo, hi)),
+                options={"maxiter": settings.search_iterations},
+            )
+        except Exception:
+            continue
+        if np.isfinite(sol.fun) and sol.fun < 1e299:
+            found_x.append(np.asarray(sol.x))
+            found_r.append(float(sol.fun))
+    if not found_r:
+        return pts, r, "search for degenerate points found nothing finite"
+    best = int(np.argmin(found_r))
+    note = f"search from the {len(starts)} worst samples reached {found_r[best]:.1e}"
+    if found_r[best] < r.min():
+        pts = np.vstack([pts, found_x[best][None]])
+        r = np.append(r, found_r[best])
+    return pts, r, note
+
+
+TOLERANCE = Tolerance(
+    1e-10,
+    "smallest over (typical) largest singular value of the form matrix below which a point counts as "
+    "degenerate: a singular matrix gives about dim * 1e-16; larger values are genuine (if ill-conditioned) "
+    "nondegenerate forms",
+)
+
+ILL_CONDITIONED = Tolerance(
+    1e-7,
+    "ratio below which a point is nondegenerate but the residuals of other checks there lose digits; "
+    "reported as a diagnosis of trust, not as a failure",
+)
+
+
+def diagnose(ev) -> Diagnosis:
+    r = ev.worst_residual
+    if not ev.failed:
+        if r >= ev.tolerances.ill_conditioned:
+            return Diagnosis()
+        return Diagnosis(trust=((
+            "ill-conditioned",
+            f"omega is nearly degenerate at x = {np.array2string(ev.worst_point, precision=4)} (relative "
+            f"singular value {r:.1e}); residuals of other checks there lose about "
+            f"{-np.log10(r):.0f} digits",
+            {"point": ev.worst_point, "ratio": r},
+        ),))
+    hint = " (dim is odd: no 2-form is nondegenerate in odd dimension)" if ev.model.dim % 2 else ""
+    return Diagnosis("omega degenerates", ((
+        "degenerate",
+        f"omega is degenerate{hint}: smallest relative singular value {r:.2e} "
+        f"{at(ev)}. Fix: restrict the chart's domain (sample) away from this point, or correct the form",
+        {"point": ev.worst_point, "ratio": r},
+    ),))
+
+
+CHECK = Check(
+    "nondegenerate", statement, nondegenerate, TOLERANCE, diagnose=diagnose, compare="above",
+    residuals=relative_to_typical_scale, refine=search_degenerate, finding_kinds=("degenerate",),
+    extra_tolerances=(("ill_conditioned", ILL_CONDITIONED),),
+)

@@ -1,0 +1,440 @@
+"""Running the checks: sample points, map kernels over them, diagnose, report.
+
+:func:`check` is the one entry point. It loops over the registered checks and
+reads everything from their :class:`~hamcheck.checks.Check` records (probes,
+``applies``, tolerance, comparison direction, residual hook, search hook,
+diagnosis); it never branches on a check's name. With autodiff all selected kernels run
+inside *one* ``jax.jit`` (one compilation per call, never one per point),
+mapped over the points with ``jax.lax.map`` (sequentially by default; vmapped
+batches sized to a memory budget when ``Settings.max_batch`` allows). If tracing that combined program fails, each check is traced
+alone so the failure is pinned to a check and the others still run. With
+finite differences the kernels run eagerly point by point and an exception at
+one point is reported while the other points are still checked.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import shlex
+import time
+import zlib
+from dataclasses import dataclass
+
+import numpy as np
+
+from .._jax import jax, jnp
+from ..cache import compile_lowered, compiled
+from ..diagnose import Evidence
+from ..errors import UsageError
+from ..model import Model
+from ..numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
+from ..report import CheckResult, Finding, Report
+from . import _registry
+
+__all__ = ["check", "Settings", "replay_command"]
+
+
+@dataclass(frozen=True)
+class Settings:
+    """How hard the checks probe (not tolerances: those live in :class:`Tolerances`).
+
+    Attributes
+    ----------
+    pairs: random direction pairs per point for closedness above ``full_tensor_max_dim``.
+    probes: random generator combinations per point for ``action`` and ``invariant``.
+    group_scale: size of sampled group elements ``exp(scale * N(0, 1))``; small
+        enough that sampled points stay inside typical charts.
+    full_tensor_max_dim: largest dim for which closedness uses the full
+        derivative tensor (about 3 dim^3 doubles per point).
+    search_starts: local searches for near-degenerate points started from the
+        worst samples (0 disables the search; the report then says so).
+    memory_budget: bytes of intermediate arrays per vmapped batch of points.
+    fast_compile: compile with XLA's cheap optimisation level (see FAST_COMPILE).
+    max_batch: most points vmapped together; 1 maps the points sequentially
+        (a scan, no vmap). Vmapped batches of CP^n checks (batched linear solves
+        and SVDs) deadlocked jaxlib 0.10.2's CPU runtime on this 2-core machine
+        (64 points at dim 16, 16 points at dim 32); sequential mapping never did,
+        and cost the same (0.16 s for 64 points at dim 16) since compilation
+        dominates. Raise it only where the runtime is known to cope.
+    """
+
+    pairs: int = 8
+    probes: int = 4
+    group_scale: float = 0.5
+    full_tensor_max_dim: int = 64
+    search_starts: int = 3
+    search_iterations: int = 40
+    memory_budget: float = 2.0e8
+    max_batch: int = 1
+    fast_compile: bool = True
+
+
+def replay_command(model: Model, seed: int, points: int, check_name: str | None = None) -> str:
+    """The command (or call) that reruns one check of one model exactly."""
+    only = f" --only {check_name}" if check_name else ""
+    if model.source:
+        return (
+            f"hamcheck check {shlex.quote(model.source)} --model {shlex.quote(model.name)} "
+            f"--seed {seed} --points {points}{only}"
+        )
+    only_py = f", only=[{check_name!r}]" if check_name else ""
+    return f"hamcheck.check(<model {model.name!r}>, seed={seed}, points={points}{only_py})"
+
+
+def _check_rng(seed: int, name: str) -> np.random.Generator:
+    return np.random.default_rng([seed, zlib.crc32(name.encode())])
+
+
+def _sample_points(model: Model, n: int, seed: int):
+    rng = np.random.default_rng(seed)
+    pts, faults = [], []
+    for i in range(n):
+        try:
+            x = np.asarray(model.sample(rng), dtype=float)
+        except Exception as exc:  # user code: report and go on
+            faults.append(f"draw {i}: {type(exc).__name__}: {exc}")
+            continue
+        if x.shape != (model.dim,) or not np.all(np.isfinite(x)):
+            faults.append(f"draw {i}: returned {x.shape} {'non-finite' if x.shape == (model.dim,) else ''}")
+            continue
+        pts.append(x)
+    return (np.stack(pts) if pts else np.zeros((0, model.dim))), faults
+
+
+def _evaluate(model: Model, x, probe):
+    """Finiteness of every user function at x (the first thing reported)."""
+    out = {
+        "form": jnp.all(jnp.isfinite(model.form_at(x))),
+        "moment": jnp.all(jnp.isfinite(model.moment_at(x))),
+        "vector_fields": jnp.all(jnp.isfinite(model.fields_at(x))),
+    }
+    return out
+
+
+def _batch_size(model: Model, n: int, settings: Settings) -> int:
+    d, k = model.dim, model.algebra.dim
+    per_point = 8.0 * (
+        (3 * d**3 if d <= settings.full_tensor_max_dim else 4 * d * d)
+        + (settings.pairs + settings.probes + k) * d * d
+        + k * k * 4
+    )
+    return int(max(1, min(n, settings.max_batch, settings.memory_budget // per_point)))
+
+
+def _first_line(exc: Exception) -> str:
+    text = str(exc).strip()
+    return f"{type(exc).__name__}: {text.splitlines()[0][:300] if text else ''}"
+
+
+#: XLA options for the one program a check() call compiles. Compilation, not
+#: execution, dominates a check of a small model (measured: 10.6 s -> 5.8 s to
+#: compile the sphere's checks; run time 70 ms -> 53 ms); the heavy work of large
+#: models is in BLAS/LAPACK calls these options do not touch. IEEE semantics are
+#: unchanged (no fast-math).
+FAST_COMPILE = {"xla_backend_optimization_level": 0, "xla_llvm_disable_expensive_passes": True}
+
+
+def _pad(tree, n_pad):
+    """Repeat the first entry so the leading axis has n_pad entries."""
+    def pad(a):
+        a = np.asarray(a)
+        extra = n_pad - a.shape[0]
+        return a if extra == 0 else np.concatenate([a, np.repeat(a[:1], extra, axis=0)])
+
+    return jax.tree_util.tree_map(pad, tree)
+
+
+def _run_traced(model, kernels, xs, probes, settings):
+    """Run all kernels in one jit; on a tracing failure, isolate per kernel.
+
+    Points are padded to a whole number of equal batches: a remainder batch
+    would make XLA compile the whole program twice.
+    """
+    n = xs.shape[0]
+    batch = _batch_size(model, n, settings)
+    n_pad = -(-n // batch) * batch
+    xs_j = jnp.asarray(_pad(xs, n_pad))
+    probes_j = jax.tree_util.tree_map(jnp.asarray, _pad(probes, n_pad))
+
+    def run(names):
+        def per_point(args):
+            x, pr = args
+            return {nm: kernels[nm](model, x, pr.get(nm, {})) for nm in names}
+
+        args = (xs_j, {nm: probes_j.get(nm, {}) for nm in names})
+        # one compiled program per model and layout: re-checking with another seed reuses it
+        shapes = jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), args)
+        key = (tuple(names), batch, settings.fast_compile, str(shapes))
+        def build(_model):
+            if batch == 1:  # a plain scan: no batched custom calls (see Settings.max_batch)
+                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
+            else:
+                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
+            return compile_lowered(fn.lower(*args), FAST_COMPILE if settings.fast_compile else None)
+
+        out = compiled(model, ("checks", key), build)(*args)
+        return jax.tree_util.tree_map(lambda a: np.asarray(a)[:n], out)
+
+    try:
+        return run(list(kernels)), {}
+    except Exception:
+        pass
+    results, errors = {}, {}
+    for nm in kernels:
+        try:
+            results[nm] = run([nm])[nm]
+        except Exception as exc:
+            errors[nm] = _first_line(exc)
+    return results, errors
+
+
+def _run_eager(model, kernels, xs, probes):
+    """Point-by-point (finite differences); an exception costs one point, not the run."""
+    results, errors, point_faults = {}, {}, {}
+    n = xs.shape[0]
+    for nm, kernel in kernels.items():
+        rows = [None] * n
+        for i in range(n):
+            pr = jax.tree_util.tree_map(lambda a: np.asarray(a[i]), probes.get(nm, {}))
+            try:
+                rows[i] = {k: np.asarray(v) for k, v in kernel(model, xs[i], pr).items()}
+            except Exception as exc:
+                point_faults.setdefault(nm, []).append((i, _first_line(exc)))
+        good = [r for r in rows if r is not None]
+        if not good:
+            errors[nm] = point_faults[nm][0][1] if nm in point_faults else "no points"
+            continue
+        template = good[0]
+        filled = [r if r is not None else {k: np.full_like(v, np.nan, dtype=float) for k, v in template.items()} for r in rows]
+        results[nm] = {k: np.stack([r[k] for r in filled]) for k in template}
+    return results, errors, point_faults
+
+
+
+def _tolerance(c, tolerances: Tolerances, traced: bool) -> float:
+    """The check's field of ``tolerances``; a check registered after import has its own default."""
+    if hasattr(tolerances, c.name):
+        return tolerances.for_check(c.name)
+    return c.tolerance.for_derivatives(traced)
+
+
+def _selected(only):
+    checks = _registry.registered()
+    if only is None:
+        return list(checks)
+    only = [only] if isinstance(only, str) else list(only)
+    names = [c.name for c in checks]
+    unknown = [o for o in only if o not in names]
+    if unknown:
+        raise UsageError(f"unknown check name(s) {unknown}; expected some of {names}")
+    return [c for c in checks if c.name in only]
+
+
+def check(
+    model: Model,
+    *,
+    points: int = 32,
+    seed: int = 0,
+    only=None,
+    tolerances: Tolerances | None = None,
+    settings: Settings | None = None,
+) -> Report:
+    """Check every axiom of ``model`` at ``points`` sampled points.
+
+    Faults inside the model's functions at particular points are reported
+    (``non-finite`` and ``raised`` findings), never raised; the remaining
+    points are still checked.
+
+    Example
+    -------
+    >>> import hamcheck, importlib.util, pathlib
+    >>> report = hamcheck.check(hamcheck.models.sphere(), points=16)   # doctest: +SKIP
+    >>> report.passed                                                   # doctest: +SKIP
+    True
+    """
+    t0 = time.perf_counter()
+    if not isinstance(model, Model):
+        raise UsageError(f"check() takes a hamcheck.Model; got {type(model).__name__}")
+    if isinstance(points, bool) or not isinstance(points, (int, np.integer)) or points < 1:
+        raise UsageError(f"points must be a positive integer; got {points!r}")
+    selected = _selected(only)
+    settings = settings or Settings()
+    if tolerances is None:
+        tolerances = TOLERANCES if model.traced else FINITE_DIFFERENCE_TOLERANCES
+
+    findings: list[Finding] = []
+    diagnoses: list[Finding] = []
+
+    def replay(name=None):
+        return replay_command(model, seed, points, name)
+
+    xs, sample_faults = _sample_points(model, points, seed)
+    if sample_faults:
+        findings.append(
+            Finding(
+                "raised",
+                f"sample(rng) failed on {len(sample_faults)} of {points} draws ({sample_faults[0]}); "
+                f"checking the other {xs.shape[0]}",
+                {"faults": sample_faults},
+                "sample",
+                replay(),
+            )
+        )
+    n = xs.shape[0]
+
+    kernels, probes, skipped = {"_evaluate": _evaluate}, {}, {}
+    for c in selected:
+        reason = c.applies(model, settings)
+        if reason:
+            skipped[c.name] = reason
+            continue
+        kernels[c.name] = c.kernel
+        probes[c.name] = c.probes(model, _check_rng(seed, c.name), n, settings) if n else {}
+
+    errors: dict[str, str] = {}
+    point_faults: dict[str, list] = {}
+    outputs: dict[str, dict] = {}
+    if n:
+        if model.traced:
+            outputs, errors = _run_traced(model, kernels, xs, probes, settings)
+        else:
+            outputs, errors, point_faults = _run_eager(model, kernels, xs, probes)
+
+    base_ok = _finite_user_functions(outputs, errors, xs, findings, diagnoses, replay)
+    for fn, faults in point_faults.items():
+        findings.append(
+            Finding(
+                "raised",
+                f"the {fn} check raised at {len(faults)} of {n} points (first: point {faults[0][0]}, {faults[0][1]}); "
+                "the other points were checked",
+                {"points": [xs[i] for i, _ in faults], "errors": [e for _, e in faults]},
+                fn,
+                replay(fn),
+            )
+        )
+
+    results: dict[str, CheckResult] = {}
+    for c in selected:
+        tol = _tolerance(c, tolerances, model.traced)
+        result = CheckResult(
+            c.name, "error", None, tol, None, "", 0, c.state(model.convention), replay(c.name), compare=c.compare
+        )
+        if c.name in skipped:
+            result = dataclasses.replace(result, status="skip", message=skipped[c.name], replay="")
+        elif n == 0:
+            result = dataclasses.replace(result, message="no point could be sampled")
+        elif c.name in errors:
+            result = dataclasses.replace(result, message=f"could not run: {errors[c.name]}")
+        else:
+            ctx = _Context(model, xs, base_ok, tolerances, settings, c.name in point_faults, replay(c.name))
+            result, found, trust = _judge(c, outputs[c.name], result, ctx)
+            findings += found
+            diagnoses += trust
+        results[c.name] = result
+
+    used = int(base_ok.sum())
+    if n and used < max(4, points // 2):
+        diagnoses.append(
+            Finding(
+                "few-points",
+                f"only {used} of {points} sampled points had finite values; a pass here is weak evidence. "
+                "Narrow sample(rng) to the chart's domain",
+                {"finite_points": used},
+            )
+        )
+    if not model.traced:
+        diagnoses.append(
+            Finding(
+                "finite-differences",
+                "derivatives by central differences (declared derivatives='finite-differences'): tolerances are "
+                "widened to FINITE_DIFFERENCE_TOLERANCES and small mistakes (below ~1e-8 relative) can pass",
+                {},
+            )
+        )
+    return Report(
+        model.name, model.source, seed, points, model.ops.name, results, findings, diagnoses,
+        time.perf_counter() - t0, convention=(model.convention.sign, model.convention.flow),
+    )
+
+
+def _finite_user_functions(outputs, errors, xs, findings, diagnoses, replay) -> np.ndarray:
+    """Points where every user function is finite; the others are excluded from every check (and reported)."""
+    n = xs.shape[0]
+    base_ok = np.ones(n, dtype=bool)
+    ev = outputs.get("_evaluate")
+    if ev is None:
+        if "_evaluate" in errors:
+            diagnoses.append(Finding("evaluation", f"could not evaluate the model's functions: {errors['_evaluate']}"))
+        return base_ok
+    for fn, ok in ev.items():
+        ok = np.asarray(ok, dtype=bool)
+        bad = np.flatnonzero(~ok)
+        if bad.size:
+            base_ok &= ok
+            findings.append(
+                Finding(
+                    "non-finite",
+                    f"{fn}(x) returned NaN or inf at {bad.size} of {n} points, first at x = "
+                    f"{np.array2string(xs[bad[0]], precision=4)}; those points are left out of every check "
+                    "and the rest are checked",
+                    {"function": fn, "points": xs[bad]},
+                    fn,
+                    replay(),
+                )
+            )
+    return base_ok
+
+
+@dataclass(frozen=True)
+class _Context:
+    """What judging one check's outputs needs besides the check and its outputs."""
+
+    model: Model
+    xs: np.ndarray
+    base_ok: np.ndarray
+    tolerances: Tolerances
+    settings: Settings
+    raised: bool  # the check raised at some points (already reported)
+    replay: str
+
+
+def _judge(c, out, result: CheckResult, ctx: _Context):
+    """Mask, compare, refine and diagnose one check: its result, findings and trust notes."""
+    xs, n = ctx.xs, ctx.xs.shape[0]
+    res = c.residuals(out)
+    ok = ctx.base_ok & np.isfinite(res)
+    extra_bad = np.flatnonzero(ctx.base_ok & ~np.isfinite(res))
+    findings = []
+    if extra_bad.size and not ctx.raised:
+        findings.append(
+            Finding(
+                "non-finite",
+                f"the {c.name} check produced NaN or inf at {extra_bad.size} of {n} points (first at x = "
+                f"{np.array2string(xs[extra_bad[0]], precision=4)}), e.g. a group element moved the point "
+                "out of the chart; the other points were checked",
+                {"points": xs[extra_bad]},
+                c.name,
+                ctx.replay,
+            )
+        )
+    if not ok.any():
+        return dataclasses.replace(result, message="no point gave a finite residual"), findings, []
+    pts = xs[ok]
+    n_checked = int(pts.shape[0])
+    sub = {k: np.asarray(v)[ok] for k, v in out.items()}
+    r = res[ok]
+    search_note = ""
+    if c.refine is not None:
+        pts, r, search_note = c.refine(ctx.model, pts, r, sub, ctx.settings)
+    worst = c.worst(r)
+    failed = not c.passes(r[worst], result.tolerance)
+    diagnosis = c.diagnose(Evidence(ctx.model, pts, sub, r, result.tolerance, ctx.tolerances, failed, worst))
+    message = diagnosis.note or (f"holds at {n_checked} points" if not failed else "fails")
+    if search_note:
+        message = f"{message}; {search_note}"
+    result = dataclasses.replace(
+        result, status="fail" if failed else "pass", residual=float(r[worst]),
+        worst_point=tuple(float(v) for v in pts[worst]), message=message, points=n_checked,
+    )
+    findings += [Finding(kind, msg, data, c.name, ctx.replay) for kind, msg, data in diagnosis.findings]
+    return result, findings, [Finding(kind, msg, data) for kind, msg, data in diagnosis.trust]
