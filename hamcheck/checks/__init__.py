@@ -21,18 +21,4 @@ from __future__ import annotations
 from ._base import Check, Tolerance
 from ._registry import CHECK_NAMES, CHECKS, FINDING_KINDS, check_named
 
-# The kernels under their check names, as the single-module ``hamcheck.checks`` had them
-# (``affine``'s resolution studies call ``antisymmetric``, ``closed_full`` and ``moment_map``
-# directly). These names hide the submodules of the same name as attributes of the package:
-# reach a module with ``from hamcheck.checks.closed import CHECK`` or ``importlib.import_module``.
-from .antisymmetric import antisymmetric  # noqa: E402
-from .closed import closed, closed_full, closed_pairs, exterior_derivative  # noqa: E402
-from .equivariance import equivariance  # noqa: E402
-from .group_equivariance import group_equivariance  # noqa: E402
-from .hamiltonian_flow import FLOW_ANGLE, FLOW_CENTRALIZER_RTOL, FLOW_STEPS  # noqa: E402
-from .hamiltonian_flow import hamiltonian_flow as flow  # noqa: E402
-from .invariant import invariant  # noqa: E402
-from .moment_map import moment_map  # noqa: E402
-from .nondegenerate import nondegenerate  # noqa: E402
-
 __all__ = ["Check", "Tolerance", "CHECKS", "CHECK_NAMES", "FINDING_KINDS", "check_named"]
