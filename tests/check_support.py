@@ -1,7 +1,7 @@
 """Helpers shared by the tests of the check modules (tests/test_check_*.py); not a test module.
 
 The planted mistakes are those of models/broken/planted_mistakes.py; the
-sign/scale/offset/cocycle/right-action expectations are those of finite.md
+sign/scale/offset/cocycle/right-action expectations are those of docs/references.md
 ("How planted mistakes show on the sphere", checked numerically there).
 """
 

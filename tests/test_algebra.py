@@ -30,7 +30,7 @@ def test_so3_structure_constants_are_levi_civita():
 
 
 def test_su2_with_complex_basis():
-    # e_k = -i sigma_k / 2 gives [e_j, e_k] = eps_jkl e_l (affine.md conventions)
+    # e_k = -i sigma_k / 2 gives [e_j, e_k] = eps_jkl e_l (docs/references.md, loop groups; from memory)
     su2 = LieAlgebra.from_matrices([-0.5j * s for s in PAULI])
     assert np.allclose(su2.structure_constants, levi_civita(), atol=1e-14)
 

@@ -1,6 +1,6 @@
 """hamcheck.checks.equivariance: omega(X_a, X_b) = sign*flow <mu, [e_a, e_b]>; offset and cocycle diagnoses.
 
-Offsets and cocycles are those of finite.md ("How planted mistakes show on the sphere").
+Offsets and cocycles are those of docs/references.md ("How planted mistakes show on the sphere").
 """
 
 import jax.numpy as jnp
@@ -21,14 +21,14 @@ def test_bundled_broken_models(broken_mod, name, expected):
 
 
 def test_offset_is_recovered_exactly(broken_mod):
-    # constant shift c on the sphere: least squares recovers c exactly (finite.md)
+    # constant shift c on the sphere: least squares recovers c exactly (docs/references.md)
     report = hamcheck.check(broken_mod.shifted, points=POINTS, only=["equivariance"])
     (finding,) = report.findings
     assert finding.data["offset"] == pytest.approx([0.3, 0.0, -0.2], abs=1e-12)
 
 
 def test_heisenberg_cocycle_value(broken_mod):
-    # translations of R^2 with mu = (y, -x): constant cocycle 1 on an abelian algebra (finite.md)
+    # translations of R^2 with mu = (y, -x): constant cocycle 1 on an abelian algebra (docs/references.md)
     report = hamcheck.check(broken_mod.translations, points=POINTS, only=["equivariance"])
     (finding,) = report.findings
     assert finding.kind == "central-cocycle"

@@ -1,6 +1,6 @@
 """hamcheck.checks.moment_map: iota_{X_a} omega = sign d mu_a; sign and scale diagnoses.
 
-Expected factors are those of finite.md ("How planted mistakes show on the sphere").
+Expected factors are those of docs/references.md ("How planted mistakes show on the sphere").
 """
 
 import pytest
@@ -24,7 +24,7 @@ def test_bundled_broken_models(broken_mod, name, expected):
 
 
 def test_scale_factors_are_reported(broken_mod):
-    # mu doubled: least squares gives 1/2 for every generator (finite.md: "mu doubled ... 2")
+    # mu doubled: least squares gives 1/2 for every generator (docs/references.md: "mu doubled ... 2")
     report = hamcheck.check(broken_mod.doubled, points=POINTS, only=["moment_map"])
     (finding,) = report.findings
     assert finding.data["factors"] == pytest.approx([0.5, 0.5, 0.5], rel=1e-9)

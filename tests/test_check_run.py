@@ -18,7 +18,7 @@ def test_correct_models_pass(sphere_mod, cpn_mod, half_plane_mod, cotangent_mod,
         assert not report.findings
         for r in report.results.values():
             if r.status == "pass" and r.tolerance == 1e-12:
-                # autodiff floors are ~1e-16 (numerics.md); the tolerance sits far above
+                # autodiff floors are ~1e-16 (docs/references.md, float64 numerics); the tolerance sits far above
                 assert r.residual < 1e-13
 
 

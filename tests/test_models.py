@@ -1,4 +1,4 @@
-"""The bundled models reproduce published values (finite.md) and pass every check."""
+"""The bundled models reproduce published values (docs/references.md) and pass every check."""
 
 import math
 
@@ -10,7 +10,7 @@ import hamcheck
 
 
 def test_oscillator_moment_map(oscillator_mod):
-    # finite.md row 1: mu_k = -|z_k|^2 / 2 for the standard circle actions (weights 1)
+    # docs/references.md row F1: mu_k = -|z_k|^2 / 2 for the standard circle actions (weights 1)
     m = oscillator_mod.build([[1, 0], [0, 1]], name="C2")
     x = np.array([0.3, -1.1, 0.8, 0.4])
     assert np.asarray(m.moment(x)) == pytest.approx([-(0.09 + 1.21) / 2, -(0.64 + 0.16) / 2], rel=1e-15)
@@ -18,7 +18,7 @@ def test_oscillator_moment_map(oscillator_mod):
 
 
 def test_sphere_localization_sinh_formula(sphere_mod):
-    # finite.md row 2 (Duistermaat–Heckman 1982): int exp(s xi.p) dA = 4 pi sinh(s|xi|)/(s|xi|), xi = e_3
+    # docs/references.md row F2 (Duistermaat–Heckman 1982): int exp(s xi.p) dA = 4 pi sinh(s|xi|)/(s|xi|), xi = e_3
     s = 1.7
     omega = lambda r: 4 / (1 + r * r) ** 2  # noqa: E731  area density of the chart, polar radius r
     height = lambda r: (1 - r * r) / (1 + r * r)  # noqa: E731  p_3 on the circle of radius r
@@ -34,7 +34,7 @@ def test_sphere_localization_sinh_formula(sphere_mod):
 
 @pytest.mark.parametrize("n", [1, 2, 3])
 def test_fubini_study_pfaffian(cpn_mod, n):
-    # finite.md row 3: the Pfaffian of the Fubini–Study form on the affine chart is (1+|w|^2)^-(n+1)
+    # docs/references.md row F3: the Pfaffian of the Fubini–Study form on the affine chart is (1+|w|^2)^-(n+1)
     rng = np.random.default_rng(n)
     for _ in range(3):
         x = rng.standard_normal(2 * n)
@@ -44,14 +44,14 @@ def test_fubini_study_pfaffian(cpn_mod, n):
 
 
 def test_cp1_volume_is_pi(cpn_mod):
-    # finite.md row 3: vol(CP^n) = pi^n / n!; for n = 1 integrate the Pfaffian in polar coordinates
+    # docs/references.md row F3: vol(CP^n) = pi^n / n!; for n = 1 integrate the Pfaffian in polar coordinates
     density = lambda r: float(cpn_mod.fubini_study(np.array([r, 0.0]))[0, 1])  # noqa: E731 (rotation invariant)
     value, _ = scipy.integrate.quad(lambda r: 2 * math.pi * r * density(r), 0, np.inf, epsrel=1e-12)
     assert value == pytest.approx(math.pi, rel=1e-9)
 
 
 def test_cpn_torus_moment_values(cpn_mod):
-    # finite.md row 3: mu_k = -|w_k|^2 / (2 (1 + |w|^2)); the image lies in conv{0, -e_k/2}
+    # docs/references.md row F3: mu_k = -|w_k|^2 / (2 (1 + |w|^2)); the image lies in conv{0, -e_k/2}
     m = cpn_mod.cp2_torus
     x = np.array([0.5, -0.2, 1.0, 0.3])  # w = (0.5 + 1i, -0.2 + 0.3i)
     w2 = np.array([0.25 + 1.0, 0.04 + 0.09])
@@ -69,7 +69,7 @@ def test_cpn_unitary_restricts_to_the_torus(cpn_mod):
 
 
 def test_half_plane_matrix_moment_map(half_plane_mod):
-    # finite.md row 6: M(z) = y^-1 [[-x, x^2+y^2], [-1, x]] has det 1 and M(g.z) = g M(z) g^-1
+    # docs/references.md row F6: M(z) = y^-1 [[-x, x^2+y^2], [-1, x]] has det 1 and M(g.z) = g M(z) g^-1
     m = half_plane_mod
     rng = np.random.default_rng(5)
     for _ in range(3):
@@ -86,7 +86,7 @@ def test_half_plane_matrix_moment_map(half_plane_mod):
 
 
 def test_cotangent_value(cotangent_mod):
-    # finite.md row 5: q = (1,2,3), p = (4,5,6) gives mu = q x p = (-3, 6, -3)
+    # docs/references.md row F5: q = (1,2,3), p = (4,5,6) gives mu = q x p = (-3, 6, -3)
     mu = np.asarray(cotangent_mod.cotangent_so3.moment(np.array([1.0, 2, 3, 4, 5, 6])))
     assert mu == pytest.approx([-3, 6, -3], abs=1e-15)
 

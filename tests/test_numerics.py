@@ -9,7 +9,7 @@ import hamcheck
 from hamcheck.checks import CHECKS
 from hamcheck.numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances, relative
 
-# the defaults and finite-difference values the project documents (README "Checks and findings"; numerics.md)
+# the defaults and finite-difference values the project documents (README "Checks and findings"; docs/references.md, float64 numerics)
 DEFAULTS = {
     "antisymmetric": 1e-12, "closed": 1e-12, "invariant": 1e-12, "moment_map": 1e-12, "equivariance": 1e-12,
     "action": 1e-10, "group_equivariance": 1e-10, "nondegenerate": 1e-10, "ill_conditioned": 1e-7, "fit": 1e-6,

@@ -4,8 +4,8 @@ Adding a field means adding it to the pinned sets below (and to the docs);
 renaming or removing one means bumping SCHEMA_VERSION.
 
 Reference values: the plane R^2 with omega = dx ^ dy and the rotation group has
-mu = -(x^2 + y^2)/2 in the project's convention (/work/shared/reference/finite.md
-row 1, "standard"); flipping its sign is the planted mistake.
+mu = -(x^2 + y^2)/2 in the project's convention (docs/references.md, 
+row F1, "standard"); flipping its sign is the planted mistake.
 """
 
 import csv
@@ -195,7 +195,7 @@ def test_explain_equivariance_uses_sign_times_flow():
         "action": CheckResult("action", "fail", 2.0, 1e-10, (1.0,), "off", 4),
     }, convention=(1, -1))
     text = " ".join(rep.explain().split())
-    assert "sign*flow = -1: omega(X_a, X_b) = -<mu, [e_a, e_b]>" in text  # finite.md identity, sign flipped
+    assert "sign*flow = -1: omega(X_a, X_b) = -<mu, [e_a, e_b]>" in text  # docs/references.md identity, sign flipped
     assert "(flow = -1): [X_a, X_b] = X_[e_a,e_b]" in text  # left action: [X, Y] = -flow X_[.,.]
 
 
