@@ -21,7 +21,6 @@ Example
 
 from __future__ import annotations
 
-import contextlib
 import dataclasses
 import json
 import os
@@ -31,11 +30,11 @@ import signal
 import subprocess
 import sys
 import tempfile
-import threading
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
+from ._watchdog import TimeLimitReached, time_limit
 from .errors import LoadError
 from .report import Outcome, Report, RunReport
 
@@ -261,59 +260,6 @@ def _check_one(model, options: Options):
 
 
 # ------------------------------------------------------------- in process
-class TimeLimitReached(BaseException):
-    """Raised inside a file's import or a model's check when its time limit is reached.
-
-    A BaseException, so that a user's ``except Exception`` cannot swallow it.
-    """
-
-    def __init__(self, what: str, seconds: float):
-        self.reason = f"time limit of {seconds:g} s reached while {what.split(': ', 1)[-1]}"
-        super().__init__(f"{what.split(': ', 1)[0]}: {self.reason}; replay it with --isolate to see it alone")
-
-
-@contextlib.contextmanager
-def time_limit(seconds, what: str):
-    """Interrupt the body after ``seconds`` of wall time (SIGALRM; main thread on POSIX only).
-
-    Python code (a user's loop at import or in a function being traced) is interrupted at
-    once. Compiled code returns to Python before the signal is seen; for a hang inside
-    compiled code a second watchdog ends the process after a grace period with one line
-    naming the model (exit 1: that file failed), since only ``--isolate`` can kill it.
-    Outside the main thread, or without SIGALRM, the body runs without a limit.
-    """
-    if not seconds or seconds <= 0 or threading.current_thread() is not threading.main_thread() \
-            or not hasattr(signal, "setitimer"):
-        yield
-        return
-
-    def on_alarm(signum, frame):
-        raise TimeLimitReached(what, seconds)
-
-    def hard_stop():
-        sys.stderr.write(f"hamcheck: {what.split(': ', 1)[0]}: still running {HARD_STOP_GRACE:g} s after its "
-                         f"time limit of {seconds:g} s (inside compiled code); stopping. Use --isolate to "
-                         "check such files in their own processes.\n")
-        sys.stderr.flush()
-        os._exit(1)
-
-    previous = signal.signal(signal.SIGALRM, on_alarm)
-    guard = threading.Timer(seconds + HARD_STOP_GRACE, hard_stop)
-    guard.daemon = True
-    signal.setitimer(signal.ITIMER_REAL, seconds)
-    guard.start()
-    try:
-        yield
-    finally:
-        signal.setitimer(signal.ITIMER_REAL, 0)
-        guard.cancel()
-        signal.signal(signal.SIGALRM, previous)
-
-
-#: Seconds past a time limit before a run stuck inside compiled code is ended.
-HARD_STOP_GRACE = 60.0
-
-
 def _replay_in_isolation(shown: str, options: Options, model: str | None = None) -> str:
     which = f" --model {shlex.quote(model)}" if model else ""
     return f"hamcheck check {shlex.quote(shown)}{which} --isolate --timeout {options.timeout:g}"
