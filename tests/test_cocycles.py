@@ -6,6 +6,7 @@ delta_xi A = [xi, A] + c xi'). The result is a hamcheck.Report.
 """
 
 import dataclasses
+import re
 import functools
 import json
 
@@ -44,9 +45,11 @@ def test_standard_virasoro_passes_with_ratio_one():
     assert not cocycles.is_coboundary(rep)
     assert cocycles.central_ratio(rep) == pytest.approx(1.0, abs=1e-10)
     assert kinds(rep) == ("central-cocycle",)
-    for name in ("action", "antisymmetric", "central-constant", "cocycle-identity"):
+    for name in ("action", "antisymmetric", "central_constant", "cocycle_identity"):
         assert rep.results[name].residual < 1e-12
     assert "m + n <= 8" in rep.diagnoses[0].message
+    # one naming style for check names across families (finding kinds use hyphens, check names not)
+    assert all(re.fullmatch(r"[a-z][a-z0-9_]*", name) for name in rep.results), list(rep.results)
 
 
 def test_c_over_12_normalisation_is_a_central_ratio_finding():
@@ -54,7 +57,7 @@ def test_c_over_12_normalisation_is_a_central_ratio_finding():
     bad = dataclasses.replace(vir(), central=1.0 / 12.0)
     rep = run(action=bad.action)
     assert not rep.passed
-    assert rep.results["central-ratio"].status == "fail"
+    assert rep.results["central_ratio"].status == "fail"
     assert cocycles.central_ratio(rep) == pytest.approx(1.0 / 6.0, rel=1e-10)
     assert "1/6" in next(f for f in rep.findings if f.kind == "central-cocycle").message
 
@@ -94,7 +97,7 @@ def test_coboundary_is_recognised():
 
     rep = run(action=action)
     assert cocycles.is_coboundary(rep)
-    assert rep.results["central-ratio"].status == "skip"
+    assert rep.results["central_ratio"].status == "skip"
     assert "central-cocycle" not in kinds(rep)
     assert rep.passed
 
@@ -111,7 +114,7 @@ def test_non_cocycle_central_term_fails_the_identity():
         return alg.action(X, T) + np.linalg.solve(weights, A.T @ np.asarray(X))
 
     rep = run(action=action)
-    assert rep.results["cocycle-identity"].status == "fail"
+    assert rep.results["cocycle_identity"].status == "fail"
     assert not rep.passed
 
 
@@ -132,7 +135,7 @@ def test_abelian_loop_algebra_with_left_sign_and_a_2pi_slip():
     slip = cocycles.check_coadjoint_action(
         bracket, pairing, lambda X, T: v(2 * np.pi * c * circle.derivative(g(X))), modes, reference=ref, sign=-1
     )
-    assert slip.results["central-ratio"].status == "fail"
+    assert slip.results["central_ratio"].status == "fail"
     assert cocycles.central_ratio(slip) == pytest.approx(2 * np.pi, rel=1e-10)
 
 
@@ -166,11 +169,11 @@ def test_the_result_is_a_report_with_explain_json_and_the_plugin_message():
     # a planted c/12 slip: explain() states the failing condition in words, with the replay
     bad = run(action=dataclasses.replace(vir(), central=1.0 / 12.0).action, seed=3)
     text = " ".join(bad.explain().split())
-    assert "central-ratio (failed)" in text and "C = 1 x reference modulo coboundaries" in text
+    assert "central_ratio (failed)" in text and "C = 1 x reference modulo coboundaries" in text
     assert "seed=3" in text and "Likely cause [central-cocycle]" in text
     # what assert_hamiltonian would print for it: the table, the findings and the explanation
     message = failure_message(bad)
-    assert "FAILED: central-ratio" in message and "Why" in message
+    assert "FAILED: central_ratio" in message and "Why" in message
 
 
 def test_former_module_name_still_imports():

@@ -204,9 +204,9 @@ def test_explain_renders_the_statement_each_result_carries(flipped_report):
     text = " ".join(flipped_report.explain().split())
     assert "Condition: the moment equation, with sign = +1: X_a^i omega_ij = d_j mu_a" in text
     # a result made outside the axiom runner (e.g. by cocycles or virasoro) explains itself the same way
-    outside = CheckResult("central-ratio", "fail", 0.16, 1e-9, None, "ratio 1/6", 1,
+    outside = CheckResult("central_ratio", "fail", 0.16, 1e-9, None, "ratio 1/6", 1,
                           "the central term is c/12 times Gelfand-Fuchs", compare="above")
-    text = " ".join(Report("m", None, 0, 1, "autodiff", {"central-ratio": outside}).explain().split())
+    text = " ".join(Report("m", None, 0, 1, "autodiff", {"central_ratio": outside}).explain().split())
     assert "Condition: the central term is c/12 times Gelfand-Fuchs" in text
     assert "(must be >= 1.0e-09)" in text  # its direction comes from the result, not from its name
 

@@ -17,8 +17,8 @@ def test_truncated_modes_and_user_action_negative_controls():
     rep = virasoro.check_user_action(lambda X, Y: -alg.bracket(X, Y), alg.pairing, alg.action, 6, 1.0)
     assert rep.results["action"].status == "fail" and "bracket-sign" in [f.kind for f in rep.findings]
     rep12 = virasoro.check_user_action(alg.bracket, alg.pairing, virasoro.TruncatedVirasoro(6, 1.0, 1 / 12).action, 6, 1.0)
-    assert rep12.results["central-ratio"].status == "fail" and circle.central_ratio(rep12) == pytest.approx(1 / 6, rel=1e-10)
-    assert isinstance(rep12, hamcheck.Report) and "virasoro.check_user_action" in rep12.results["central-ratio"].replay
+    assert rep12.results["central_ratio"].status == "fail" and circle.central_ratio(rep12) == pytest.approx(1 / 6, rel=1e-10)
+    assert isinstance(rep12, hamcheck.Report) and "virasoro.check_user_action" in rep12.results["central_ratio"].replay
 
 
 def test_bad_truncation_is_one_clear_message():

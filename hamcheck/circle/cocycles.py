@@ -27,13 +27,13 @@ and :func:`check_coadjoint_action` decides:
     action ``ad*`` with ``[V, W]`` as above ``sign = -1``.
 ``antisymmetric``
     ``<delta_X T, Y> = -<delta_Y T, X>`` (so the KKS form is well defined).
-``central-constant``
+``central_constant``
     the central term ``C_T(X, Y) = sign <delta_X T, Y> - <T, [X, Y]>`` does not
     depend on T. With ``omega(delta_X T, delta_Y T) = sign <delta_X T, Y>`` (the
     KKS form in both conventions) this is ``omega = <T, [X, Y]> + C(X, Y)``:
     ``C = c GF`` for Virasoro (sign +1) and ``C = c int <xi, eta'>`` for the
     loop group's left action ``delta_xi A = [xi, A] + c xi'`` (sign -1).
-``cocycle-identity``
+``cocycle_identity``
     ``C([X, Y], Z) + C([Y, Z], X) + C([Z, X], Y) = 0``.
 ``coboundary`` (a decision, always "pass" when it could be made)
     least squares ``C(e_a, e_b) = lambda([e_a, e_b])`` over the de-aliased
@@ -41,7 +41,7 @@ and :func:`check_coadjoint_action` decides:
     a ``central-cocycle`` finding reports the ratio r in
     ``C = r * reference + lambda([., .])`` (so ``c/12`` vs ``c/2`` shows up as
     r = 1/6).
-``central-ratio``
+``central_ratio``
     fails when the central term is not a coboundary and r is not 1 (or C is
     not a multiple of the reference modulo coboundaries); skipped for a
     coboundary.
@@ -79,8 +79,8 @@ __all__ = ["check_coadjoint_action", "central_ratio", "is_coboundary", "COCYCLE_
 COCYCLE_TOLERANCES = MappingProxyType({
     "action": TOLERANCES.cocycle_action,
     "antisymmetric": TOLERANCES.cocycle_antisymmetric,
-    "central-constant": TOLERANCES.cocycle_central_constant,
-    "cocycle-identity": TOLERANCES.cocycle_identity,
+    "central_constant": TOLERANCES.cocycle_central_constant,
+    "cocycle_identity": TOLERANCES.cocycle_identity,
     "coboundary": TOLERANCES.cocycle_coboundary,
     "ratio": TOLERANCES.cocycle_ratio,
 })
@@ -88,10 +88,10 @@ COCYCLE_TOLERANCES = MappingProxyType({
 _STATEMENTS = {
     "action": "[V_X, V_Y] = sign V_[X,Y] for V_X(T) = delta_X T (a Lie algebra action with the declared sign)",
     "antisymmetric": "<delta_X T, Y> = -<delta_Y T, X> (the KKS form is well defined)",
-    "central-constant": "sign <delta_X T, Y> - <T, [X, Y]> does not depend on T",
-    "cocycle-identity": "C([X,Y],Z) + C([Y,Z],X) + C([Z,X],Y) = 0",
+    "central_constant": "sign <delta_X T, Y> - <T, [X, Y]> does not depend on T",
+    "cocycle_identity": "C([X,Y],Z) + C([Y,Z],X) + C([Z,X],Y) = 0",
     "coboundary": "is C(X, Y) = lambda([X, Y]) for some linear lambda? (least squares over de-aliased pairs)",
-    "central-ratio": "C = 1 x reference modulo coboundaries when C is not a coboundary",
+    "central_ratio": "C = 1 x reference modulo coboundaries when C is not a coboundary",
 }
 
 
@@ -103,7 +103,7 @@ def central_ratio(report: Report):
 
 def is_coboundary(report: Report) -> bool:
     """True when the central term of a :func:`check_coadjoint_action` report is a coboundary."""
-    return report.results["central-ratio"].status == "skip"
+    return report.results["central_ratio"].status == "skip"
 
 
 def _call(fn, label, *args):
@@ -271,7 +271,7 @@ def check_coadjoint_action(
     r_spread = spread / max(spread_den, TINY)
     depends = (f"({sign:+d})<delta_X T, Y> - <T, [X, Y]> depends on T: the linear part of delta is not the coadjoint "
                "action of this bracket")
-    results["central-constant"] = _result("central-constant", r_spread, TOLERANCES.cocycle_central_constant,
+    results["central_constant"] = _result("central_constant", r_spread, TOLERANCES.cocycle_central_constant,
                                           "the central term does not depend on T", depends, samples, replay)
 
     # ----------------------------------------------------- cocycle identity
@@ -282,8 +282,8 @@ def check_coadjoint_action(
     Ja = BCa + BCa.transpose(1, 2, 0) + BCa.transpose(2, 0, 1)
     trip = exact[:, :, None] & exact[None, :, :] & exact.T[:, None, :]
     r_coc = np.abs(J[trip]).max() / max(Ja[trip].max(), TINY) if trip.any() else 0.0
-    results["cocycle-identity"] = _result(
-        "cocycle-identity",
+    results["cocycle_identity"] = _result(
+        "cocycle_identity",
         r_coc,
         TOLERANCES.cocycle_identity,
         "the central term is a 2-cocycle",
@@ -336,7 +336,7 @@ def check_coadjoint_action(
         dev = abs(ratio - 1.0)
         ratio_status = "pass" if dev <= TOLERANCES.cocycle_ratio else "fail"
         ratio_msg = f"ratio to {reference_name} = {ratio:.10g}"
-    results["central-ratio"] = _checked("central-ratio", ratio_status, dev, TOLERANCES.cocycle_ratio, ratio_msg, pairs, replay)
+    results["central_ratio"] = _checked("central_ratio", ratio_status, dev, TOLERANCES.cocycle_ratio, ratio_msg, pairs, replay)
     if not is_cob:
         if ratio is not None:
             off = abs(ratio - 1.0) > TOLERANCES.cocycle_ratio
@@ -362,7 +362,7 @@ def check_coadjoint_action(
                 text,
                 {"ratio": ratio, "coboundary_misfit": cob_misfit, "joint_misfit": joint_misfit, "lambda": lam, "matrix": C0},
                 # the finding explains the failing ratio check when there is one
-                "central-ratio" if results["central-ratio"].status == "fail" else "coboundary",
+                "central_ratio" if results["central_ratio"].status == "fail" else "coboundary",
                 replay,
             )
         )
