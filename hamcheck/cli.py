@@ -3,7 +3,7 @@
     hamcheck check PATH... [--points N] [--seed S] [--only CHECK ...] [--model NAME]
                            [--explain] [--quiet] [--no-progress]
                            [--json FILE] [--markdown FILE] [--csv FILE]
-                           [--isolate [--timeout SECONDS] [--memory GIB] [--jobs N]]
+                           [--isolate [--timeout SECONDS] [--memory GIB] [--jobs N]] [--scheduler ADDRESS]
     hamcheck --debug check ...        (tracebacks of load errors)
 
 Exit status: 0 when every model passes; 1 when some check fails or errors;
@@ -37,6 +37,7 @@ __all__ = ["main", "load_models", "SUBCOMMANDS", "build_parser"]
 SUBCOMMANDS: list[tuple[str, str]] = [
     ("holonomy", "hamcheck.affine:add_holonomy_parser"),
     ("classify", "hamcheck.virasoro:add_classify_parser"),
+    ("stability", "hamcheck.stability:add_stability_parser"),
 ]
 
 model_files = collect_files  # the name this module used before batch.py existed
@@ -92,6 +93,9 @@ def _add_check_parser(sub):
     g.add_argument("--memory", type=_positive_float, metavar="GIB",
                    help=f"address-space limit per file with --isolate, in GiB (default {DEFAULT_MEMORY_GB:g}; jax needs ~2)")
     g.add_argument("--jobs", type=_positive_int, metavar="N", help="files checked at once with --isolate (default 1)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="check the files on the Dask cluster at ADDRESS (tcp://host:port), each isolated as with "
+                   "--isolate; files are shipped by content")
     p.set_defaults(run=run_check)
 
 
@@ -113,7 +117,10 @@ def run_check(args) -> int:
     from .batch import run_in_process, run_isolated
 
     limits = [f"--{n}" for n in ("timeout", "memory", "jobs") if getattr(args, n) is not None]
-    if limits and not args.isolate:
+    if args.scheduler and args.jobs is not None:
+        _print("hamcheck: --jobs runs local processes and --scheduler a cluster's workers: give one of them", sys.stderr)
+        return 2
+    if limits and not (args.isolate or args.scheduler):
         _print(f"hamcheck: {', '.join(limits)} only apply with --isolate", sys.stderr)
         return 2
     try:
@@ -147,6 +154,8 @@ def run_check(args) -> int:
     progress = Progress(len(files), enabled=not args.no_progress)
     warn = lambda line: _print(f"hamcheck: {line}", sys.stderr)  # noqa: E731
     runner = run_isolated if args.isolate else run_in_process
+    if args.scheduler:
+        runner = _on_scheduler(args.scheduler)
     run = runner(files, options, echo=echo, progress=progress, warn=warn)
     if args.model and not run.outcomes:
         _print(f"hamcheck: no model named {', '.join(args.model)} in {', '.join(args.paths)}", sys.stderr)
@@ -159,6 +168,18 @@ def run_check(args) -> int:
     if args.csv:
         _write(args.csv, run.to_csv())
     return run.exit_code
+
+
+def _on_scheduler(address: str):
+    """A runner for run_check that sends the files to the Dask cluster at ``address`` (isolated there)."""
+
+    def run(files, options, **kwargs):
+        from .distributed import client_for, run_batch
+
+        with client_for(address) as client:
+            return run_batch(files, options, client, label=address, **kwargs)
+
+    return run
 
 
 def build_parser() -> argparse.ArgumentParser:
