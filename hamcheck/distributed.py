@@ -105,13 +105,17 @@ def local_cluster(workers: int, *, memory_limit="auto", threads: int = 1):
     return distributed.LocalCluster(
         n_workers=workers, threads_per_worker=threads, processes=True, host="127.0.0.1",
         dashboard_address=None, memory_limit=memory_limit, silence_logs=logging.ERROR,
+        # no dashboard, and the scheduler's small HTTP server (health routes) on a free loopback port
+        scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"},
     )
 
 
-def connect(address: str, *, timeout: float = CONNECT_TIMEOUT):
+def connect(address: str, *, timeout: float | None = None):
     """A client on the scheduler at ``address`` (``tcp://host:port`` or ``host:port``), checked to have
-    a worker that can import hamcheck; anything else is one :class:`ClusterError` line."""
+    a worker that can import hamcheck; anything else is one :class:`ClusterError` line.
+    ``timeout`` defaults to :data:`CONNECT_TIMEOUT`."""
     distributed = _distributed()
+    timeout = CONNECT_TIMEOUT if timeout is None else timeout
     with _quiet():
         try:
             client = distributed.Client(address, timeout=timeout, set_as_default=False)
