@@ -38,6 +38,8 @@ from .errors import UsageError
 
 __all__ = ["SweepRow", "SweepTable", "sweep"]
 
+_FLOOR = 1e-20  # residual/tolerance of an exactly satisfied identity, so margins stay finite on plots
+
 
 @dataclass(frozen=True)
 class SweepRow:
@@ -72,7 +74,8 @@ class SweepRow:
 
     def margin(self, check: str | None = None) -> float:
         """log10 of residual / tolerance (tolerance / value for ``nondegenerate``, which must stay
-        above it) for ``check``, or the worst over all checks: > 0 fails, < 0 passes with room."""
+        above it) for ``check``, or the worst over all checks: > 0 fails, < 0 passes with room.
+        An exact zero residual counts as -20 (far below any float64 round-off floor)."""
         names = [check] if check else list(self.residual)
         worst = -math.inf
         for c in names:
@@ -80,7 +83,7 @@ class SweepRow:
             if r is None or t is None or not t > 0:
                 continue
             ratio = (t / r if r > 0 else math.inf) if c == "nondegenerate" else r / t
-            worst = max(worst, math.log10(ratio) if ratio > 0 else -math.inf)
+            worst = max(worst, math.log10(max(ratio, _FLOOR)))
         return worst if worst > -math.inf else math.nan
 
     def to_dict(self) -> dict:
