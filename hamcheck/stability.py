@@ -188,11 +188,13 @@ def _q_nodes(a0, A, B, c, N):
     """``T/c`` at the three Gauss nodes of each of N steps: three arrays (P, N)."""
     h = 2 * np.pi / N
     n = np.arange(1, A.shape[1] + 1)
+    AB = np.concatenate([A, B], axis=1) / c  # one product per node: [A | B] @ [cos; sin]
     out = []
     for nd in _NODES:
-        th = (np.arange(N) + nd) * h
-        ph = np.outer(n, th)
-        out.append((a0[:, None] + A @ np.cos(ph) + B @ np.sin(ph)) / c)
+        ph = np.outer(n, (np.arange(N) + nd) * h)
+        q = AB @ np.concatenate([np.cos(ph), np.sin(ph)]) if n.size else np.zeros((len(a0), N))
+        q += (a0 / c)[:, None]
+        out.append(q)
     return out
 
 
@@ -214,8 +216,11 @@ def _steps(a0, A, B, c, N):
     # the rare larger ones take the closed form.
     s2 = w11**2 + w12 * w21
     ch, sh = np.full_like(s2, _CH[-1]), np.full_like(s2, _SH[-1])
-    for ck, sk in zip(_CH[-2::-1], _SH[-2::-1]):
-        ch, sh = ch * s2 + ck, sh * s2 + sk
+    for ck, sk in zip(_CH[-2::-1], _SH[-2::-1]):  # Horner, in place
+        ch *= s2
+        ch += ck
+        sh *= s2
+        sh += sk
     big = np.abs(s2) > 1.0
     if big.any():
         z = np.sqrt(s2[big].astype(complex))
@@ -451,7 +456,7 @@ class StabilityChart:
         codes = np.vectorize(index.get)(self.classes).astype(float)
         cmap = ListedColormap([_COLORS[k] for k in CHART_CLASSES])
         norm = BoundaryNorm(np.arange(len(CHART_CLASSES) + 1) - 0.5, cmap.N)
-        fig, ax = plt.subplots(figsize=(8.5, 6.5))
+        fig, ax = plt.subplots(figsize=(7.5, 7.0))
         ax.pcolormesh(self.a_values, self.b_values, codes, cmap=cmap, norm=norm, shading="nearest")
         handles = [Patch(facecolor=_COLORS[k], edgecolor="k", lw=0.3, label=f"{CLASS_WORDS[k]} ({n})")
                    for k, n in self.counts().items()]
@@ -465,7 +470,7 @@ class StabilityChart:
         ax.set_xlabel(self.names[0])
         ax.set_ylabel(self.names[1])
         ax.set_title(title or f"Monodromy classes of c d^2 + T, c = {self.c:g}")
-        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8, frameon=False)
+        ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.09), ncol=2, fontsize=8, frameon=False)
         fig.tight_layout()
         fig.savefig(path, dpi=130)
         plt.close(fig)
