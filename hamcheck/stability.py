@@ -486,13 +486,13 @@ def _parameter_names(potential) -> tuple:
     return tuple(params[:2]) if len(params) >= 2 else ("a", "b")
 
 
-def _grid_values(values, name):
+def _grid_values(values, name, expected="finite numbers (at least one)"):
     try:
         arr = np.asarray(values, dtype=float).reshape(-1)
     except (TypeError, ValueError):
-        raise UsageError(f"{name} must be a list of numbers; got {values!r}") from None
+        raise UsageError(f"{name} must be {expected}; got {values!r}") from None
     if arr.size == 0 or not np.all(np.isfinite(arr)):
-        raise UsageError(f"{name} must be a non-empty list of finite numbers; got {arr.tolist()[:5]}")
+        raise UsageError(f"{name} must be {expected}; got {arr.tolist()[:5]}")
     return arr
 
 
@@ -510,43 +510,48 @@ def stability_chart(potential, a_values, b_values, *, c: float = 1.0, client=Non
     >>> import numpy as np
     >>> chart = stability_chart(lambda a, b: a + b * np.cos, [0.1, -0.5], [0.0], c=1.0)   # doctest: +SKIP
     """
-    try:
-        c = float(c)
-    except (TypeError, ValueError):
-        raise UsageError(f"the central charge c must be a number; got {c!r}") from None
-    if not math.isfinite(c) or c == 0:
-        raise UsageError(f"the central charge c must be finite and non-zero; got {c}")
+    (c,) = _grid_values([c], "the central charge c", "a finite non-zero number")
+    if c == 0:
+        raise UsageError("the central charge c must be a finite non-zero number; got 0")
+    c = float(c)
     if not callable(potential):
         raise UsageError(f"potential must be a function potential(a, b) returning T; got {type(potential).__name__}")
     av, bv = _grid_values(a_values, "a_values"), _grid_values(b_values, "b_values")
     pairs = [(float(a), float(b)) for b in bv for a in av]  # row-major: b rows, a columns
     t0 = time.perf_counter()
     if client is None:
-        parts, tasks = [_chart_chunk(potential, pairs, c, tol, max_steps)], 1
+        parts = [(np.arange(len(pairs)), _chart_chunk(potential, pairs, c, tol, max_steps))]
     else:
         parts = _chart_on_client(client, potential, pairs, c, tol, max_steps)
-        tasks = len(parts)
-    merged = {k: np.concatenate([p[k] for p in parts]) for k in parts[0] if k != "seconds"}
+    order = np.concatenate([idx for idx, _ in parts])
+    merged = {}
+    for k in ("classes", "traces", "rotation_numbers", "errors", "steps"):
+        values = np.concatenate([p[k] for _, p in parts])
+        merged[k] = np.empty_like(values)
+        merged[k][order] = values
     shape = (len(bv), len(av))
     return StabilityChart(
         _frozen(av), _frozen(bv), c,
         *(_frozen(merged[k].reshape(shape)) for k in ("classes", "traces", "rotation_numbers", "errors", "steps")),
-        names=_parameter_names(potential), seconds=time.perf_counter() - t0, tasks=tasks,
-        meta={"task_seconds": [round(p["seconds"], 3) for p in parts]},
+        names=_parameter_names(potential), seconds=time.perf_counter() - t0, tasks=len(parts),
+        meta={"task_seconds": [round(p["seconds"], 3) for _, p in parts]},
     )
 
 
 def _chart_on_client(client, potential, pairs, c, tol, max_steps):
-    """First chunk here (to measure the cost per point), the rest in tasks of >= MIN_TASK_SECONDS."""
+    """``[(indices, part), ...]``: 256 points spread over the grid here (the cost per point varies
+    across the plane), the rest on the workers in tasks of >= MIN_TASK_SECONDS by that measure."""
     from .distributed import gather_in_order
 
-    first = min(len(pairs), 256)
-    head = _chart_chunk(potential, pairs[:first], c, tol, max_steps)
-    per_point = max(head["seconds"], 1e-6) / first
-    size = max(first, int(math.ceil(MIN_TASK_SECONDS / per_point)))
-    chunks = [pairs[i : i + size] for i in range(first, len(pairs), size)]
-    futures = [client.submit(_chart_chunk, potential, ch, c, tol, max_steps, pure=False) for ch in chunks]
-    return [head] + gather_in_order(futures, what="a chunk of the stability chart")
+    P = len(pairs)
+    pilot = np.unique(np.linspace(0, P - 1, min(P, 256)).astype(int))
+    head = _chart_chunk(potential, [pairs[i] for i in pilot], c, tol, max_steps)
+    per_point = max(head["seconds"], 1e-6) / len(pilot)
+    size = max(len(pilot), int(math.ceil(MIN_TASK_SECONDS / per_point)))
+    rest = np.setdiff1d(np.arange(P), pilot)
+    chunks = [rest[i : i + size] for i in range(0, len(rest), size)]
+    futures = [client.submit(_chart_chunk, potential, [pairs[i] for i in ch], c, tol, max_steps, pure=False) for ch in chunks]
+    return [(pilot, head)] + list(zip(chunks, gather_in_order(futures, what="a chunk of the stability chart")))
 
 
 # ------------------------------------------------------------- command line

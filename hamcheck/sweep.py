@@ -152,8 +152,7 @@ class SweepTable:
         }
 
     def to_json(self, **kwargs) -> str:
-        kwargs.setdefault("indent", 2)
-        return json.dumps(self.to_dict(), **kwargs)
+        return json.dumps(self.to_dict(), **{"indent": 2, **kwargs})
 
     def to_csv(self) -> str:
         """One line per model: parameters, passed, status and residual per check, findings, message, replay."""

@@ -152,3 +152,14 @@ def test_a_worker_that_dies_costs_its_file_one_row(cluster, tmp_path, capfd):
     rows = {ln.split()[0].rsplit("/", 1)[-1]: ln for ln in out.splitlines() if ".py" in ln}
     assert "CRASHED" in rows["kills_worker.py"] and "worker" in rows["kills_worker.py"]
     assert "NO-MODEL" in rows["plain.py"]
+
+
+def test_dask_is_imported_only_when_a_cluster_is_used():
+    import subprocess
+    import sys
+
+    code = ("import sys, hamcheck, hamcheck.cli, hamcheck.sweep, hamcheck.stability, hamcheck.distributed\n"
+            "hamcheck.cli.build_parser()\n"
+            "print(sorted(m for m in sys.modules if m.split('.')[0] in ('dask', 'distributed')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"

@@ -180,11 +180,13 @@ def test_plot_and_json(chart_A, tmp_path):
 def test_bad_input_is_one_clear_error():
     with pytest.raises(UsageError, match=r"potential\(1.0, 0.0\) raised ZeroDivisionError"):
         stability_chart(lambda a, b: 1 / b, [1.0], [0.0])
-    with pytest.raises(UsageError, match="finite and non-zero"):
+    with pytest.raises(UsageError, match="c must be a finite non-zero number; got 0"):
         stability_chart(mathieu_A, [1.0], [0.0], c=0.0)
+    with pytest.raises(UsageError, match="c must be a finite non-zero number"):
+        stability_chart(mathieu_A, [1.0], [0.0], c=float("nan"))
     with pytest.raises(UsageError, match="NaN or inf"):
         stability_chart(lambda a, b: (lambda th: np.full_like(th, np.nan)), [1.0], [0.0])
-    with pytest.raises(HamcheckError, match="non-empty"):
+    with pytest.raises(HamcheckError, match=r"a_values must be finite numbers \(at least one\)"):
         stability_chart(mathieu_A, [], [0.0])
 
 
