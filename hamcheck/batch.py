@@ -547,12 +547,7 @@ def run_isolated(files, options: Options, *, echo=None, progress: Progress | Non
                     else:
                         _kill(child)  # the file may have left processes behind in its group
                     outs, reps, warnings = _interpret(child, options, round(elapsed, 3))
-                    for line in warnings:
-                        warn(line)
-                    for r in reps:
-                        if echo:
-                            echo(r)
-                    per_file[i] = (outs, reps)
+                    file_done(per_file, i, outs, reps, warnings, warn, echo)
                     del running[i]
                 if running:
                     time.sleep(0.05)
@@ -560,9 +555,23 @@ def run_isolated(files, options: Options, *, echo=None, progress: Progress | Non
             for child in running.values():
                 _kill(child)
     progress.done()
-    outcomes = [o for i in sorted(per_file) for o in per_file[i][0]]
-    reports = [r for i in sorted(per_file) for r in per_file[i][1]]
+    outcomes, reports = in_file_order(per_file)
     return RunReport(outcomes, reports, options.to_dict() | {"isolate": True}, time.monotonic() - t0)
+
+
+def file_done(per_file: dict, i: int, outs, reps, warnings, warn, echo) -> None:
+    """Pass a finished file's warnings and reports on as they arrive; keep its rows under its index."""
+    for line in warnings:
+        warn(line)
+    for r in reps:
+        if echo:
+            echo(r)
+    per_file[i] = (outs, reps)
+
+
+def in_file_order(per_file: dict):
+    """``(outcomes, reports)`` of all files in the order the files were given, whatever order they finished in."""
+    return [o for i in sorted(per_file) for o in per_file[i][0]], [r for i in sorted(per_file) for r in per_file[i][1]]
 
 
 def run_one_isolated(f: Path, options: Options, workdir: Path, *, shown: str | None = None, index: int = 0):

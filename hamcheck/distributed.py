@@ -263,7 +263,7 @@ def run_batch(files, options, client, *, echo=None, progress=None, warn=None, la
     Same rows, summary and exit code as :func:`hamcheck.batch.run_isolated`;
     ``echo(report)`` and ``progress`` as results arrive (completion order).
     """
-    from .batch import Progress, display_path
+    from .batch import Progress, display_path, file_done, in_file_order
     from .report import Outcome, Report, RunReport
 
     distributed = _distributed()
@@ -291,18 +291,12 @@ def run_batch(files, options, client, *, echo=None, progress=None, warn=None, la
                 warnings = [f"{shown}: {why}"]
                 replay = f"hamcheck check {shlex.quote(shown)} --isolate --timeout {options.timeout:g} --memory {options.memory_gb:g}"
                 outs, reps = [Outcome(shown, None, "crashed", message=why, replay=replay)], []
-            for line in warnings:
-                warn(line)
-            for r in reps:
-                if echo:
-                    echo(r)
-            per_file[i] = (outs, reps)
+            file_done(per_file, i, outs, reps, warnings, warn, echo)
     except BaseException:
         client.cancel(list(futures))
         raise
     progress.done()
-    outcomes = [o for i in sorted(per_file) for o in per_file[i][0]]
-    reports = [r for i in sorted(per_file) for r in per_file[i][1]]
+    outcomes, reports = in_file_order(per_file)
     opts = options.to_dict() | {"isolate": True, "scheduler": label or str(client.scheduler.address)}
     return RunReport(outcomes, reports, opts, time.monotonic() - t0)
 
