@@ -18,6 +18,7 @@ from .report import CheckResult, Finding, Report
 from .checks.run import Settings, check
 from .orbits import coadjoint_orbit
 from .consequences import fixed_points, flow, lattice_count, localization, moment_image, reduce
+from .sweeps import SweepTable, sweep
 
 __version__ = "0.1.0"
 
@@ -45,7 +46,9 @@ __all__ = [  # one list, sorted without regard to case
     "reduce",
     "Report",
     "Settings",
-    "TOLERANCES",
+    "sweep",
+    "SweepTable",
     "Tolerances",
+    "TOLERANCES",
     "UsageError",
 ]

@@ -110,13 +110,14 @@ def collect_files(paths) -> list[Path]:
     return files
 
 
-def load_models(path) -> list:
+def load_models(path, shown: str | None = None) -> list:
     """Import a Python file and return its module-level :class:`hamcheck.Model` objects, in order.
 
     Every failure becomes a one-line :class:`LoadError`: a syntax error (with
     its line), an exception at import (with its type), ``sys.exit()`` at
     import, running out of memory. Each model's ``source`` is set to ``path``
-    as given, so that replay commands name the file that was checked.
+    as given (or ``shown``, the name of a file shipped to a worker by content),
+    so that replay commands name the file that was checked.
     """
     import importlib.util
     import zlib
@@ -124,7 +125,7 @@ def load_models(path) -> list:
     from .errors import HamcheckError
     from .model import Model
 
-    shown = display_path(path)
+    shown = display_path(path) if shown is None else shown
     resolved = Path(path).resolve()
     name = f"_hamcheck_user_{zlib.crc32(os.fsencode(resolved)):08x}"
     spec = importlib.util.spec_from_file_location(name, resolved)
@@ -345,18 +346,18 @@ def _emit(stream, **event) -> None:
 
 
 def child_main(argv) -> int:
-    """Entry point of one isolated child: ``RESULT_FILE FILE OPTIONS_JSON``.
+    """Entry point of one isolated child: ``RESULT_FILE FILE OPTIONS_JSON [SHOWN]``.
 
     Writes one JSON object per line to RESULT_FILE as it goes (``loaded``,
     ``checking``, ``report``, ``problem``, ``done``), so that the parent knows
     how far a child got when it had to be stopped.
     """
-    result_path, file, options_json = argv
+    result_path, file, options_json, *shown = argv  # SHOWN: the name to report a shipped file by
     options = Options(**{k: tuple(v) if isinstance(v, list) else v for k, v in json.loads(options_json).items()})
     with open(result_path, "a", encoding="utf-8") as out:
         _emit(out, event="start", pid=os.getpid())
         try:
-            models = load_models(file)
+            models = load_models(file, *shown)
         except LoadError as exc:
             _emit(out, event="load-error", kind=exc.kind, message=exc.reason)
             return 0
@@ -395,7 +396,7 @@ def _child_env() -> dict:
     return env
 
 
-def _spawn(f: Path, options: Options, workdir: Path, index: int) -> _Child:
+def _spawn(f: Path, options: Options, workdir: Path, index: int, shown: str | None = None) -> _Child:
     result, stderr = workdir / f"{index}.jsonl", workdir / f"{index}.err"
     mem = int(options.memory_gb * 2**30) if options.memory_gb and options.memory_gb > 0 else 0
     # CPU-seconds backstop so that an orphaned child (parent killed) still ends; jax uses every core
@@ -403,14 +404,15 @@ def _spawn(f: Path, options: Options, workdir: Path, index: int) -> _Child:
     child_opts = json.dumps({k: v for k, v in options.to_dict().items()})
     with open(stderr, "wb") as err:
         proc = subprocess.Popen(
-            [sys.executable, "-c", _BOOTSTRAP, str(mem), str(cpu), str(result), os.fsdecode(f), child_opts],
+            [sys.executable, "-c", _BOOTSTRAP, str(mem), str(cpu), str(result), os.fsdecode(f), child_opts]
+            + ([shown] if shown is not None else []),
             stdin=subprocess.DEVNULL,
             stdout=subprocess.DEVNULL,  # user prints are not part of the report
             stderr=err,
             start_new_session=True,  # own process group: a timeout kills what the file started, too
             env=_child_env(),
         )
-    return _Child(f, display_path(f), proc, result, stderr, time.monotonic())
+    return _Child(f, display_path(f) if shown is None else shown, proc, result, stderr, time.monotonic())
 
 
 def _kill(child: _Child) -> None:
@@ -563,12 +565,7 @@ def run_isolated(files, options: Options, *, echo=None, progress: Progress | Non
                     else:
                         _kill(child)  # the file may have left processes behind in its group
                     outs, reps, warnings = _interpret(child, options, round(elapsed, 3))
-                    for line in warnings:
-                        warn(line)
-                    for r in reps:
-                        if echo:
-                            echo(r)
-                    per_file[i] = (outs, reps)
+                    file_done(per_file, i, outs, reps, warnings, warn, echo)
                     del running[i]
                 if running:
                     time.sleep(0.05)
@@ -576,6 +573,42 @@ def run_isolated(files, options: Options, *, echo=None, progress: Progress | Non
             for child in running.values():
                 _kill(child)
     progress.done()
-    outcomes = [o for i in sorted(per_file) for o in per_file[i][0]]
-    reports = [r for i in sorted(per_file) for r in per_file[i][1]]
+    outcomes, reports = in_file_order(per_file)
     return RunReport(outcomes, reports, options.to_dict() | {"isolate": True}, time.monotonic() - t0)
+
+
+def file_done(per_file: dict, i: int, outs, reps, warnings, warn, echo) -> None:
+    """Pass a finished file's warnings and reports on as they arrive; keep its rows under its index."""
+    for line in warnings:
+        warn(line)
+    for r in reps:
+        if echo:
+            echo(r)
+    per_file[i] = (outs, reps)
+
+
+def in_file_order(per_file: dict):
+    """``(outcomes, reports)`` of all files in the order the files were given, whatever order they finished in."""
+    return [o for i in sorted(per_file) for o in per_file[i][0]], [r for i in sorted(per_file) for r in per_file[i][1]]
+
+
+def run_one_isolated(f: Path, options: Options, workdir: Path, *, shown: str | None = None, index: int = 0):
+    """Check one file in a child process under the limits and wait for it: ``(outcomes, reports, warnings)``.
+
+    The unit of work a Dask worker runs (:mod:`hamcheck.distributed`); ``shown``
+    is the name the rows report (the user's path of a file shipped by content).
+    """
+    shown = display_path(f) if shown is None else shown
+    problem = _syntax_problem(f)
+    if problem:
+        return [Outcome(shown, None, "load-error", message=problem, replay=f"hamcheck check {shlex.quote(shown)}")], [], [f"{shown}: {problem}"]
+    child = _spawn(f, options, workdir, index, shown)
+    try:
+        while child.proc.poll() is None:
+            if options.timeout and time.monotonic() - child.started > options.timeout:
+                child.timed_out = True
+                break
+            time.sleep(0.05)
+    finally:
+        _kill(child)  # also what the file left behind in its process group
+    return _interpret(child, options, round(time.monotonic() - child.started, 3))

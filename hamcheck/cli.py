@@ -3,7 +3,7 @@
     hamcheck check PATH... [--points N] [--seed S] [--only CHECK ...] [--model NAME]
                            [--explain] [--quiet] [--no-progress]
                            [--json FILE] [--markdown FILE] [--csv FILE]
-                           [--isolate [--timeout SECONDS] [--memory GIB] [--jobs N]]
+                           [--isolate [--timeout SECONDS] [--memory GIB] [--jobs N]] [--scheduler ADDRESS]
     hamcheck --debug check ...        (tracebacks of load errors)
 
 Exit status, one meaning each: 0 when every model passes; 1 when some model
@@ -40,6 +40,7 @@ __all__ = ["main", "load_models", "SUBCOMMANDS", "build_parser"]
 SUBCOMMANDS: list[tuple[str, str]] = [
     ("holonomy", "hamcheck.cli:add_holonomy_parser"),
     ("classify", "hamcheck.cli:add_classify_parser"),
+    ("stability", "hamcheck.cli:add_stability_parser"),
 ]
 
 model_files = collect_files  # the name this module used before batch.py existed
@@ -96,6 +97,9 @@ def _add_check_parser(sub):
     g.add_argument("--memory", type=_positive_float, metavar="GIB",
                    help=f"address-space limit per file with --isolate, in GiB (default {DEFAULT_MEMORY_GB:g}; jax needs ~2)")
     g.add_argument("--jobs", type=_positive_int, metavar="N", help="files checked at once with --isolate (default 1)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="check the files on the Dask cluster at ADDRESS (tcp://host:port), each isolated as with "
+                   "--isolate; files are shipped by content")
     p.set_defaults(run=run_check)
 
 
@@ -117,7 +121,10 @@ def run_check(args) -> int:
     from .batch import run_in_process, run_isolated
 
     limits = [f"--{n}" for n in ("memory", "jobs") if getattr(args, n) is not None]
-    if limits and not args.isolate:
+    if args.scheduler and args.jobs is not None:
+        _print("hamcheck: --jobs runs local processes and --scheduler a cluster's workers: give one of them", sys.stderr)
+        return 2
+    if limits and not (args.isolate or args.scheduler):
         _print(f"hamcheck: {', '.join(limits)} only apply with --isolate", sys.stderr)
         return 2
     try:
@@ -151,6 +158,8 @@ def run_check(args) -> int:
     progress = Progress(len(files), enabled=not args.no_progress)
     warn = lambda line: _print(f"hamcheck: {line}", sys.stderr)  # noqa: E731
     runner = run_isolated if args.isolate else run_in_process
+    if args.scheduler:
+        runner = _on_scheduler(args.scheduler)
     run = runner(files, options, echo=echo, progress=progress, warn=warn)
     if args.model and not run.outcomes:
         _print(f"hamcheck: no model named {', '.join(args.model)} in {', '.join(args.paths)}", sys.stderr)
@@ -201,6 +210,18 @@ def run_holonomy(args) -> int:
     return 0
 
 
+def _on_scheduler(address: str):
+    """A runner for run_check that sends the files to the Dask cluster at ``address`` (isolated there)."""
+
+    def run(files, options, **kwargs):
+        from .distributed import client_for, run_batch
+
+        with client_for(address) as client:
+            return run_batch(files, options, client, label=address, **kwargs)
+
+    return run
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="hamcheck", description="Numerical checks of Hamiltonian G-spaces (evidence at sampled points, not a proof)."
@@ -241,6 +262,54 @@ def main(argv=None) -> int:
             _print(f"hamcheck: {exc}", sys.stderr)
             return 2
         raise
+
+
+def add_stability_parser(sub) -> None:
+    """``hamcheck stability FILE --a LO HI N --b LO HI N`` (hamcheck.virasoro.stability_chart)."""
+    p = sub.add_parser(
+        "stability",
+        help="chart of monodromy classes of a Hill potential family potential(a, b) over a parameter plane",
+        description="Classify c d^2 + T for T = potential(a, b) over a grid of (a, b) and draw the chart. "
+        "FILE is a Python file defining potential(a, b) (returning a function of theta, samples or a number) and c.",
+    )
+    p.add_argument("file", metavar="FILE", help="Python file defining potential(a, b) and c")
+    p.add_argument("--a", nargs=3, type=float, required=True, metavar=("LO", "HI", "N"), help="first parameter: N values from LO to HI")
+    p.add_argument("--b", nargs=3, type=float, required=True, metavar=("LO", "HI", "N"), help="second parameter: N values from LO to HI")
+    p.add_argument("--c", type=float, default=None, help="the central charge c (else c from FILE, else 1)")
+    p.add_argument("--png", metavar="PATH", default="stability.png", help="where to write the chart (default stability.png)")
+    p.add_argument("--json", metavar="PATH", help="write the grid (classes, traces, rotation numbers) as JSON")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run on the Dask cluster at ADDRESS")
+    p.add_argument("--workers", type=int, metavar="N", help="run on an embedded Dask cluster of N local worker processes")
+    p.set_defaults(run=run_stability)
+
+
+def _linspace(spec, name):
+    lo, hi, n = spec
+    if n < 1 or n != int(n):
+        from .errors import UsageError
+
+        raise UsageError(f"--{name} LO HI N needs a positive whole N; got {n:g}")
+    import numpy as np
+
+    return np.linspace(lo, hi, int(n))
+
+
+def run_stability(args) -> int:
+    from .distributed import client_for
+    from .virasoro.stability import load_potential_family, stability_chart
+
+    potential, c_file = load_potential_family(args.file)
+    c = args.c if args.c is not None else (c_file if c_file is not None else 1.0)
+    av, bv = _linspace(args.a, "a"), _linspace(args.b, "b")
+    with client_for(args.scheduler, workers=args.workers) as client:
+        chart = stability_chart(potential, av, bv, c=c, client=client)
+    chart.plot(args.png)
+    if args.json:
+        with open(args.json, "w", encoding="utf-8") as fh:
+            fh.write(chart.to_json())
+    _print(repr(chart))
+    _print(f"wrote {args.png}" + (f" and {args.json}" if args.json else "") + f" ({chart.seconds:.1f} s, {chart.tasks} task(s))")
+    return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -30,6 +30,9 @@ EXPECTED = {
     "localization",
     "moment_image",
     "reduce",
+    # families of models over parameter grids (scale-out issue)
+    "SweepTable",
+    "sweep",
 }
 
 

@@ -12,6 +12,7 @@ CIRCLE = {
     "CircleTolerances", "TOLERANCES",
 }
 VIRASORO = {
+    "StabilityChart", "stability_chart",  # the stability chart of Hill potentials (scale-out issue)
     "Diffeo", "schwarzian", "schwarzian_from_derivatives", "transform", "delta", "bracket", "gelfand_fuchs",
     "TruncatedVirasoro", "truncated_algebra", "check_user_action", "Monodromy", "hill_generator", "monodromy",
     "rotation_number", "stabilizer_fourier", "stabilizer_ode", "constant_representative", "classify", "classify_file",

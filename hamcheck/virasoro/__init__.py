@@ -8,6 +8,7 @@ module              what lives there
 ``orbit_chart``     :func:`orbit_model`, the base-form check, the resolution study
 ``truncated``       the truncated algebra and checks of a user's truncated action
 ``localization``    rotation weights and the regularised one-loop factor
+``stability``       :func:`stability_chart`: classes over a parameter plane (Dask when given)
 ``tolerances``      :data:`TOLERANCES`
 ==================  ====================================================================
 
@@ -75,8 +76,9 @@ from .localization import counterterm_limit, counterterm_sum, rotation_weights, 
 from .orbit_chart import VirasoroOrbitChart, base_form_check, base_form_residual, chart_resolution_study, kks_base_form, orbit_model
 from .tolerances import TOLERANCES, VirasoroTolerances
 from .truncated import TruncatedVirasoro, check_user_action, truncated_algebra
+from .stability import StabilityChart, stability_chart
 
-from . import diffeomorphisms, hill, localization, orbit_chart, tolerances, truncated
+from . import diffeomorphisms, hill, localization, orbit_chart, stability, tolerances, truncated
 
 __all__ = [
     *diffeomorphisms.__all__,
@@ -85,6 +87,8 @@ __all__ = [
     *orbit_chart.__all__,
     *localization.__all__,
     *tolerances.__all__,
+    "StabilityChart",
+    "stability_chart",
 ]
 
 #: former module-level tolerances, now fields of TOLERANCES (one release of grace)
