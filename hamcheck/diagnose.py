@@ -55,8 +55,32 @@ class Diagnosis:
     trust: tuple = ()
 
 
+#: Entries at most this many float64 round-offs of the vector's largest entry print as 0: a fitted
+#: offset of (0.3, -3.9e-17, -0.2) is (0.3, 0, -0.2) to every digit a least-squares fit can resolve
+#: (its round-off is a few eps times the scale, common practice).
+ROUNDOFF_ULPS = 64
+
+
 def vec(v, digits=4) -> str:
-    return "(" + ", ".join(f"{x:.{digits}g}" for x in np.atleast_1d(v)) + ")"
+    """A vector for a message, with entries that are zero to round-off (relative to its scale) shown as 0.
+
+    >>> vec([0.3, -3.925e-17, -0.2]), vec([1e-20, 2e-20])
+    ('(0.3, 0, -0.2)', '(1e-20, 2e-20)')
+    """
+    return "(" + ", ".join(_num(x, digits) for x in _zero_roundoff(v)) + ")"
+
+
+def _zero_roundoff(v) -> np.ndarray:
+    """``v`` with entries below ``ROUNDOFF_ULPS`` round-offs of ``max |v|`` set to 0 (non-finite entries kept)."""
+    v = np.atleast_1d(np.asarray(v, dtype=float))
+    finite = np.isfinite(v)
+    scale = float(np.max(np.abs(v[finite]))) if finite.any() else 0.0
+    small = finite & (np.abs(v) <= ROUNDOFF_ULPS * np.finfo(float).eps * scale)
+    return np.where(small, 0.0, v)
+
+
+def _num(x: float, digits: int) -> str:
+    return "0" if x == 0 else f"{x:.{digits}g}"
 
 
 def at(ev: Evidence) -> str:

@@ -9,10 +9,13 @@ the flow run backwards (common practice: X_{-H} = -X_H).
 import types
 
 import numpy as np
+import pytest
+import scipy.linalg
 
 import hamcheck
-from hamcheck import Convention
-from hamcheck.checks.hamiltonian_flow import CHECK, FLOW_ANGLE, FLOW_STEPS
+from hamcheck import Convention, LieAlgebra, Model, virasoro
+from hamcheck._jax import jax, jnp
+from hamcheck.checks.hamiltonian_flow import CHECK, FLOW_ERROR_TARGET, FLOW_MAX_STEPS, FLOW_TRUST_FACTOR, integrate
 from hamcheck.diagnose import Evidence
 
 
@@ -22,10 +25,71 @@ def test_name_stays_flow_and_statement_follows_the_convention():
     assert "= -d_j <mu, xi>" in CHECK.state((-1, 1))
 
 
-def test_rk4_truncation_sits_far_below_the_tolerance():
-    # RK4's local error ~ h^5/120 (common practice) summed over the steps, against the default 1e-9
-    h = FLOW_ANGLE / FLOW_STEPS
-    assert FLOW_STEPS * h**5 / 120 < 1e-3 * CHECK.tolerance.default
+def test_error_target_sits_100x_below_the_tolerance():
+    assert FLOW_ERROR_TARGET * 100 <= CHECK.tolerance.default
+
+
+def _rotation_estimate(rate, t):
+    """RK4 with step doubling on y' = rate J y against the exact rotation (scipy.linalg.expm)."""
+    A = rate * np.array([[0.0, -1.0], [1.0, 0.0]])
+    x = np.array([0.6, -0.8])
+
+    def estimate(y, coarse):
+        return jnp.max(jnp.abs(y - coarse)) / jnp.maximum(jnp.max(jnp.abs(x)), jnp.max(jnp.abs(y)))
+
+    y, coarse, steps = jax.jit(lambda x0: integrate(lambda z: jnp.asarray(A) @ z, x0, t, estimate))(jnp.asarray(x))
+    exact = scipy.linalg.expm(t * A) @ x
+    return float(estimate(y, coarse)), float(np.max(np.abs(np.asarray(y) - exact))), int(steps)
+
+
+def test_step_doubling_estimate_bounds_the_true_error():
+    # the exact flow of a linear field is the matrix exponential (from memory); RK4's error falls
+    # 16x per doubling (order 4, common practice), so the difference of two solutions bounds it
+    for rate in (1.0, 8.0, 20.0):
+        est, true, steps = _rotation_estimate(rate, 0.05)
+        assert est <= FLOW_ERROR_TARGET and true <= est, (rate, est, true, steps)
+    # a fast rotation needs more steps than a slow one: the step count follows the field
+    assert _rotation_estimate(20.0, 0.05)[2] > _rotation_estimate(1.0, 0.05)[2]
+
+
+def test_a_stiff_flow_stops_at_the_step_limit_with_an_honest_estimate():
+    est, true, steps = _rotation_estimate(400.0, 0.05)  # 20 radians over the arc
+    assert steps == FLOW_MAX_STEPS and est > FLOW_ERROR_TARGET and true <= est
+
+
+def _fast_plane(k, backwards=False):
+    """The plane, mu = -k |x|^2 / 2: its flow turns k times faster than exp(t xi) (action g^k)."""
+    u1 = LieAlgebra.from_matrices([np.array([[0.0, -1.0], [1.0, 0.0]])], names=["rot"])
+    W = jnp.array([[0.0, 1.0], [-1.0, 0.0]])
+    s = -1.0 if backwards else 1.0
+    # planted when backwards: moment and fields negated together, so only the flow sees it
+    return Model(f"plane turning {k}x" + (" backwards" if backwards else ""), 2, form=lambda x: W, algebra=u1,
+                 moment=lambda x: s * k * jnp.array([-(x[0] ** 2 + x[1] ** 2) / 2]),
+                 vector_fields=lambda x: s * k * jnp.array([[-x[1], x[0]]]),
+                 action=lambda g, x: jnp.linalg.matrix_power(g, k) @ x)
+
+
+def test_a_correct_stiff_model_gets_a_diagnosis_not_a_failure():
+    report = hamcheck.check(_fast_plane(400), points=4, only=["flow"])
+    assert report.results["flow"].status == "pass" and report.passed, str(report)
+    assert [d.kind for d in report.diagnoses] == ["flow-unresolved"]
+    assert "stiff or badly scaled" in report.diagnoses[0].message
+
+
+def test_a_backwards_stiff_flow_is_still_found():
+    # the defect (~1, the flow turned the other way by 20 rad) is far beyond the unresolved error (~1e-8)
+    report = hamcheck.check(_fast_plane(400, backwards=True), points=4, only=["flow"])
+    assert report.results["flow"].status == "fail"
+    assert [f.kind for f in report.findings] == ["flow-sign"]
+
+
+def test_virasoro_chart_high_modes_no_false_alarm():
+    # issue case: the fixed 8-step integrator failed this correct chart at 2.1e-8 (its own truncation)
+    model = virasoro.orbit_model(0.25, 1.0, modes=range(2, 9))
+    report = hamcheck.check(model, points=8, seed=3, only=["flow"])
+    result = report.results["flow"]
+    assert result.status == "pass" and result.residual < CHECK.tolerance.default / FLOW_TRUST_FACTOR, str(report)
+    assert not report.diagnoses
 
 
 def test_sphere_passes_and_a_backwards_flow_is_found(sphere_mod, broken_mod):
@@ -46,6 +110,7 @@ def test_skipped_with_finite_differences():
 
 def test_diagnosis_of_a_field_mismatch_defers_to_the_moment_equation():
     model = types.SimpleNamespace(convention=Convention())
-    out = {"field": np.array([0.5]), "along": np.array([0.5]), "against": np.array([0.5]), "conserved": np.array([0.0])}
+    out = {"field": np.array([0.5]), "along": np.array([0.5]), "against": np.array([0.5]), "conserved": np.array([0.0]),
+           "error": np.array([1e-13]), "conserved_error": np.array([1e-13]), "steps": np.array([16])}
     d = CHECK.diagnose(Evidence(model, np.zeros((1, 2)), out, np.array([0.5]), 1e-9, None, True, 0))
     assert not d.findings and "fix the moment equation first" in d.note

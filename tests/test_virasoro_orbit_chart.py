@@ -100,3 +100,49 @@ def test_resolution_study_converges_and_a_wrong_chart_stalls(tmp_path):
     assert bad.verdict == "stalls"
     good.plot(tmp_path / "closed.png")
     assert (tmp_path / "closed.png").exists()
+
+
+def test_pfaffian_squares_to_the_determinant():
+    # Pf(A)^2 = det(A) (Cayley, from memory); Pf of 4x4 = a01 a23 - a02 a13 + a03 a12 (from memory)
+    rng = np.random.default_rng(5)
+    for n in (2, 4, 6, 10):
+        B = rng.standard_normal((n, n))
+        A = B - B.T
+        assert virasoro.orbit_chart.pfaffian(A) ** 2 == pytest.approx(np.linalg.det(A), rel=1e-10)
+    A = rng.standard_normal((4, 4))
+    A = A - A.T
+    assert virasoro.orbit_chart.pfaffian(A) == pytest.approx(A[0, 1] * A[2, 3] - A[0, 2] * A[1, 3] + A[0, 3] * A[1, 2], rel=1e-12)
+
+
+@functools.cache
+def indefinite_chart():
+    # modes 1 and 3 at T0 = 0.6, c = 2: c n^2 - 4 T0 is -0.4 for n = 1 and 15.6 for n = 3
+    with pytest.warns(UserWarning, match="degenerates near weighted radius"):
+        return virasoro.orbit_model(0.6, 2.0, [1, 3])
+
+
+def test_a_slice_degenerate_inside_the_default_ball_samples_a_smaller_region():
+    model = indefinite_chart()
+    radius = model.construction.radius
+    assert 0 < radius < 0.4
+    # the restriction is needed: inside the default ball (weighted radius 0.4) the Pfaffian takes both signs,
+    # so the form vanishes somewhere on the segment between (intermediate value theorem, from memory)
+    pf = virasoro.orbit_chart.pfaffian
+    base = pf(np.asarray(model.form(jnp.zeros(4))))
+    rng = np.random.default_rng(0)
+    signs = set()
+    for _ in range(400):
+        d = rng.standard_normal(4)
+        d *= 0.4 / np.sum(np.repeat([1.0, 3.0], 2) * np.abs(d))
+        signs.add(np.sign(pf(np.asarray(model.form(jnp.asarray(d)))) / base))
+    assert signs == {-1.0, 1.0}
+    # every sampled point lies in the declared region, and the check passes there
+    draws = np.stack([model.sample(np.random.default_rng(s)) for s in range(200)])
+    assert np.max(np.sum(np.repeat([1.0, 3.0], 2) * np.abs(draws), axis=1)) <= radius * (1 + 1e-12)
+    for seed in (0, 1):
+        report = hamcheck.check(model, points=32, seed=seed)
+        assert report.passed, str(report)
+
+
+def test_no_restriction_where_the_scan_sees_no_trouble():
+    assert chart().construction.radius == 0.4

@@ -48,7 +48,13 @@ def relative_to_typical_scale(out) -> np.ndarray:
 
 
 def search_degenerate(model, pts, r, out, settings):
-    """Local minimisation of the relative smallest singular value from the worst samples."""
+    """Local minimisation of the relative smallest singular value from the worst samples.
+
+    Bounded by the samples' bounding box (and the declared ``domain``); each end
+    point is pulled back into the samples' convex hull (:func:`_within_hull`), so
+    the search never reports a point outside the region the model samples from.
+    A search that stops early only misses points; it cannot fail a model.
+    """
     if settings.search_starts <= 0 or pts.shape[0] == 0:
         return pts, r, "no search for degenerate points (search_starts=0)"
     from scipy.optimize import minimize
@@ -83,6 +89,9 @@ def search_degenerate(model, pts, r, out, settings):
             return v if np.isfinite(v) else 1e300
 
         jac = False
+    if model.domain is not None:  # a declared domain bounds the search too
+        box = np.asarray(model.domain, dtype=float)
+        lo, hi = np.maximum(lo, box[:, 0]), np.minimum(hi, box[:, 1])
     starts = np.argsort(r)[: settings.search_starts if model.dim <= 64 else 1]
     found_x, found_r = [], []
     for i in starts:
@@ -93,9 +102,13 @@ def search_degenerate(model, pts, r, out, settings):
             )
         except Exception:
             continue
-        if np.isfinite(sol.fun) and sol.fun < 1e299:
-            found_x.append(np.asarray(sol.x))
-            found_r.append(float(sol.fun))
+        # never beyond the samples' convex hull: the box's corners may lie outside the chart's region
+        x_end = _within_hull(pts, pts[i], np.asarray(sol.x, dtype=float))
+        value = objective(x_end)
+        value = float(value[0] if jac else value)
+        if np.isfinite(value) and value < 1e299:
+            found_x.append(x_end)
+            found_r.append(value)
     if not found_r:
         return pts, r, "search for degenerate points found nothing finite"
     best = int(np.argmin(found_r))
@@ -104,6 +117,34 @@ def search_degenerate(model, pts, r, out, settings):
         pts = np.vstack([pts, found_x[best][None]])
         r = np.append(r, found_r[best])
     return pts, r, note
+
+
+def _within_hull(pts, start, end):
+    """The point farthest along the segment ``start -> end`` inside the convex hull of ``pts``.
+
+    ``start`` is a sample (in the hull). The search may end outside the region the
+    model samples from (the bounding box is larger than the hull), where its chart
+    need not be valid: a degenerate point there is no fault of the model. One
+    linear programme: maximise ``s`` with ``start + s (end - start) = pts^T w``,
+    ``w >= 0``, ``sum w = 1``, ``0 <= s <= 1``.
+    """
+    d = end - start
+    if not np.any(d):
+        return end
+    from scipy.optimize import linprog
+
+    n = pts.shape[0]
+    A = np.vstack([np.hstack([pts.T, -d[:, None]]), np.hstack([np.ones(n), [0.0]])])
+    b = np.append(start, 1.0)
+    cost = np.zeros(n + 1)
+    cost[-1] = -1.0
+    try:
+        sol = linprog(cost, A_eq=A, b_eq=b, bounds=[(0, None)] * n + [(0, 1)], method="highs")
+    except (ValueError, np.linalg.LinAlgError):
+        return start
+    if sol.status != 0:
+        return start
+    return start + float(np.clip(sol.x[-1], 0.0, 1.0)) * d
 
 
 TOLERANCE = Tolerance(

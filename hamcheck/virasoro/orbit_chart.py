@@ -38,6 +38,7 @@ __all__ = [
     "base_form_residual",
     "base_form_check",
     "chart_resolution_study",
+    "pfaffian",
 ]
 
 TWO_PI = 2.0 * np.pi
@@ -63,6 +64,84 @@ def _chart_bases(modes, th):
     return [jnp.asarray(b) for b in out]
 
 
+#: The scan that fixes the sampled region: the 4 len(modes) vertices of the weighted l1 ball and
+#: REGION_RAYS further fixed directions, each at REGION_RADII radii up to the amplitude.
+REGION_RAYS = 64
+REGION_RADII = 16
+REGION_RESCANS = 3
+
+
+def pfaffian(A) -> float:
+    """The Pfaffian of an antisymmetric matrix by pivoted elimination (``Pf(A)^2 = det A``, from memory).
+
+    >>> float(pfaffian(np.array([[0.0, 2.0], [-2.0, 0.0]])))
+    2.0
+    """
+    A = np.array(A, dtype=float)
+    n = A.shape[0]
+    if n % 2:
+        return 0.0
+    pf = 1.0
+    for k in range(0, n - 1, 2):
+        p = k + 1 + int(np.argmax(np.abs(A[k + 1:, k])))
+        if p != k + 1:  # swapping rows and columns k+1, p flips the sign
+            A[[k + 1, p]] = A[[p, k + 1]]
+            A[:, [k + 1, p]] = A[:, [p, k + 1]]
+            pf = -pf
+        if A[k, k + 1] == 0.0:
+            return 0.0
+        pf *= A[k, k + 1]
+        if k + 2 < n:
+            tau = A[k, k + 2:] / A[k, k + 1]
+            col = A[k + 2:, k + 1].copy()
+            A[k + 2:, k + 2:] += np.outer(tau, col) - np.outer(col, tau)
+    return pf
+
+
+def _region(form, modes, amplitude):
+    """The sampled radius (weighted l1, ``sum n (|a_n| + |b_n|)``) and the radius where the scan found trouble.
+
+    The pulled-back form of a finite slice need not be nondegenerate: its
+    Pfaffian can cross zero inside the chart (it does for modes [1, 3] at
+    T0 = 0.6, c = 2, where the base form pairs the two modes with opposite
+    signs). Along the scanned rays, the first radius where
+    ``Pf(omega(x)) / Pf(omega(0))`` falls to ``TOLERANCES.region_pfaffian`` or
+    below bounds the region; the sampled radius is ``TOLERANCES.region_safety``
+    times it. Returns ``(amplitude, None)`` when no ray falls within ``amplitude``.
+    """
+    dim = 2 * len(modes)
+    nvec = np.repeat(np.asarray(modes, dtype=float), 2)
+    W0 = np.asarray(form(jnp.zeros(dim)))
+    s0 = np.linalg.svd(W0, compute_uv=False)
+    if not np.all(np.isfinite(s0)) or s0[-1] <= TOLERANCES.resonance * s0[0]:
+        return amplitude, None  # degenerate at the base point: the resonance warning says so
+    base = pfaffian(W0)
+    rng = np.random.default_rng(0)  # fixed directions: the same model every time
+    dirs = np.vstack([np.diag(1.0 / nvec), -np.diag(1.0 / nvec), rng.standard_normal((REGION_RAYS, dim))])
+    dirs /= np.sum(nvec * np.abs(dirs), axis=1, keepdims=True)
+    frac = np.arange(1, REGION_RADII + 1) / REGION_RADII
+    # the jitted form point by point: cheaper than compiling a vmapped copy for ~1000 points
+    def forms(X):
+        return np.stack([np.asarray(form(x)) for x in X])
+
+    top = amplitude
+    for _ in range(REGION_RESCANS + 1):
+        pts = (top * frac)[None, :, None] * dirs[:, None, :]
+        W = forms(pts.reshape(-1, dim))
+        ratio = np.array([pfaffian(w) for w in W]).reshape(pts.shape[:2]) / base
+        bad = ~(ratio > TOLERANCES.region_pfaffian)  # NaN counts as trouble
+        if not bad.any():  # after a closer look: the trouble starts beyond `top`
+            return (amplitude, None) if top == amplitude else (TOLERANCES.region_safety * top, top)
+        first = top * frac[int(np.argmax(bad.any(axis=0)))]
+        if first > top * frac[0]:
+            return TOLERANCES.region_safety * first, first
+        top = top * frac[0]  # trouble at the first radius: look closer
+    raise UsageError(
+        f"the chart's form for modes {list(modes)} degenerates within {top:.1e} of the base point (its Pfaffian "
+        f"falls below {TOLERANCES.region_pfaffian} of the base value): no region to sample. Drop or change modes"
+    )
+
+
 def orbit_model(T0, c, modes, grid: int | None = None, *, amplitude: float = 0.4, transform=None, tangent=None, name=None) -> Model:
     """The Fourier-truncated orbit chart through ``T0`` with its exact pulled-back KKS form.
 
@@ -81,8 +160,18 @@ def orbit_model(T0, c, modes, grid: int | None = None, *, amplitude: float = 0.4
 
     ``transform(T0F, F1, F2, F3, c)`` and ``tangent(dF, F1)`` (jax) replace the
     transformation law and the tangent map ``X_i = d_i F / F'``: the hooks for
-    checking a user's own formulas. Samples are drawn with
-    ``sum n (|a_n| + |b_n|) <= amplitude`` so ``F' >= 1 - amplitude``.
+    checking a user's own formulas.
+
+    The sampled region is the weighted l1 ball ``sum n (|a_n| + |b_n|) <= radius``
+    (so ``F' >= 1 - radius``), ``radius = amplitude`` unless the form degenerates
+    inside it: the pulled-back form of a finite slice need not be nondegenerate
+    (for modes [1, 3] at T0 = 0.6, c = 2 the Pfaffian changes sign at weighted
+    radius ~0.37). A scan along the ball's vertices and 64 fixed rays, 16 radii
+    each, finds the first radius where the Pfaffian falls to
+    ``TOLERANCES.region_pfaffian`` of its base value; then ``radius`` is
+    ``TOLERANCES.region_safety`` times that, with a warning, and it is recorded
+    in ``model.construction.radius``. A form degenerate arbitrarily close to the
+    base point is refused (``UsageError``).
 
     >>> import hamcheck
     >>> model = orbit_model(0.1, 1.0, [1, 2], grid=64)
@@ -169,12 +258,21 @@ def orbit_model(T0, c, modes, grid: int | None = None, *, amplitude: float = 0.4
 
         extra = {"vector_fields": lambda x: jnp.zeros((1, dim))}
 
+    radius, trouble = _region(form, modes, amplitude)
+    if trouble is not None:
+        warnings.warn(
+            f"the chart's form for modes {modes} degenerates near weighted radius sum n (|a_n| + |b_n|) = "
+            f"{trouble:.3g} (its Pfaffian falls below {TOLERANCES.region_pfaffian} of the base value): points are "
+            f"sampled within {radius:.3g} instead of amplitude {amplitude:g}",
+            stacklevel=2,
+        )
+
     def sample(rng):
         x = rng.standard_normal(dim)
-        return amplitude * rng.uniform(0.2, 1.0) * x / np.sum(nvec * np.abs(x))
+        return radius * rng.uniform(0.2, 1.0) * x / np.sum(nvec * np.abs(x))
 
     label = name or f"virasoro_orbit(T0={'%g' % T0c if constant else 'non-constant'}, c={c:g}, modes={modes}, M={M})"
-    built = VirasoroOrbitChart(T0=T0c if constant else p, c=c, modes=tuple(modes), grid=M, point=point)
+    built = VirasoroOrbitChart(T0=T0c if constant else p, c=c, modes=tuple(modes), grid=M, point=point, radius=radius)
     return Model(label, dim, form, algebra, moment, sample=sample, convention=Convention(sign=+1, flow=+1),
                  construction=built, **extra)
 
@@ -182,13 +280,15 @@ def orbit_model(T0, c, modes, grid: int | None = None, *, amplitude: float = 0.4
 @dataclass(frozen=True)
 class VirasoroOrbitChart:
     """What :func:`orbit_model` built: base potential ``T0`` (a number or a
-    :class:`~hamcheck.circle.Periodic`), central charge, modes, quadrature grid, and ``point``."""
+    :class:`~hamcheck.circle.Periodic`), central charge, modes, quadrature grid, ``point``, and the sampled
+    ``radius`` (weighted l1: ``sum n (|a_n| + |b_n|) <= radius``)."""
 
     T0: object
     c: float
     modes: tuple
     grid: int
     point: object = field(repr=False, compare=False, default=None)
+    radius: float | None = None
 
 
 def kks_base_form(T0, c, modes) -> np.ndarray:

@@ -41,12 +41,22 @@ class VirasoroTolerances(ToleranceRecord):
         degenerate value, where the orbit form vanishes at the base point: the
         chart is built but warns. Values within 1e-9 give forms whose smallest
         singular value is below the nondegeneracy tolerance.
+    region_pfaffian:
+        The sampled region of :func:`~hamcheck.virasoro.orbit_model` ends where,
+        along any scanned ray, the Pfaffian of the form falls to this fraction of
+        its value at the base point (or changes sign): the pulled-back form of a
+        finite slice can degenerate (a Pfaffian crossing zero) inside the chart.
+    region_safety:
+        The sampled radius is this fraction of the first such radius, so the
+        points between scanned rays keep a margin to the degenerate set.
     """
 
     monodromy: float = 1e-12
     trace_class: float = 1e-9
     base_form: float = 1e-12
     resonance: float = 1e-9
+    region_pfaffian: float = 0.1
+    region_safety: float = 0.5
 
 
 TOLERANCES = VirasoroTolerances()
