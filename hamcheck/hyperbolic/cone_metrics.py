@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import virasoro
+from .._jax import jax
 from ._common import as_cones
 from .accessory import AccessorySolution, solve_accessory
 from .boundary import _family_fit, boundary_potential, residues_from_u
@@ -75,7 +76,16 @@ class ConeConstruction:
 
     @functools.cached_property
     def method_a(self) -> MethodA:
-        return method_a(self.cones, self.grid, tuple(int(round(g * 0.7)) for g in self.grid))
+        # the first call of u may come from inside a jax trace (a jitted distance): solve eagerly
+        with jax.ensure_compile_time_eval():
+            return method_a(self.cones, self.grid, tuple(int(round(g * 0.7)) for g in self.grid))
+
+    def u_change(self, z) -> float:
+        """max |u_fine - u_coarse| at points z: method A's error estimate for u (used by distances)."""
+        A = self.method_a
+        z = np.asarray(z, complex)
+        f = [np.asarray(jax.vmap(s.u)(z.real, z.imag)) for s in (A.solution, A.coarse)]
+        return float(np.max(np.abs(f[0] - f[1])))
 
     @property
     def liouville_floor(self) -> float:

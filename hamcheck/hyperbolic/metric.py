@@ -115,7 +115,12 @@ class Metric:
         e2 = c2.beta - 1 if c2 else 0.0
         L1, c = _path_length(self.u, z1, z2, e1, e2, modes, nodes, None)
         L2, _ = _path_length(self.u, z1, z2, e1, e2, 2 * modes, 2 * nodes, c)
-        return Estimate(L2, abs(L2 - L1) + 1e-14 * L2, "shortest path by minimisation")
+        err = abs(L2 - L1) + 1e-14 * L2
+        if hasattr(self.construction, "u_change"):
+            # a solved u carries its own error: a change du of u changes the length by ~ L du
+            t = np.linspace(0, 1, 65)[1:-1]
+            err += L2 * self.construction.u_change(z1 + t * (z2 - z1))
+        return Estimate(L2, err, "shortest path by minimisation")
 
 
 def _path_length(u, z1, z2, e1, e2, K, n, start):
