@@ -31,9 +31,10 @@ from .quadratic import AccessoryFamily, RationalQ
 #: counts as real: 1e3 x the propagator's tolerance.
 REALITY_TOL = 1e-10
 
-#: Continuation stages in the cone angles (from 2 pi, where q = 0) used when the
-#: direct start does not converge.
-CONTINUATION = (0.25, 0.5, 0.75, 1.0)
+#: Continuation stages in the cone angles (from 2 pi, where q = 0). Two close
+#: cones (s = 0.02) showed a spurious root from the direct start; 6 stages
+#: follow the right branch there.
+CONTINUATION = (1 / 6, 2 / 6, 3 / 6, 4 / 6, 5 / 6, 1.0)
 
 
 @dataclass(frozen=True)
@@ -143,25 +144,36 @@ def _solve(family, x0, tol):
     return x, J, r, perr, traces, count[0]
 
 
-def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL) -> AccessorySolution:
+def _project(family, b):
+    """Accessory parameters x whose residues are closest to b."""
+    return np.linalg.lstsq(np.vstack([family.N.real, family.N.imag]),
+                           np.concatenate([(b - family.b_part).real, (b - family.b_part).imag]), rcond=None)[0]
+
+
+def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> AccessorySolution:
     """Method B for cone points ``[(p, alpha), ...]`` with angles below 2 pi.
 
-    Starts from each cone's one-point residue; if that does not reach a real
-    monodromy, continues in the angles from 2 pi (where q = 0).
+    The monodromy condition has several roots (spurious ones give real
+    monodromy but a developing map that leaves the disk's image); the right one
+    is followed by continuation in the angles from 2 pi, where q = 0 and the
+    root is the trivial one (stages :data:`CONTINUATION`). ``start``: residues
+    of a nearby configuration (e.g. a neighbouring chart cell) to start from
+    instead, skipping the continuation.
     """
     t0 = time.perf_counter()
     cones = as_cones(cones, below_two_pi=True)
     family = AccessoryFamily.of(cones)
-    x, J, r, perr, traces, nev = _solve(family, family.guess(), tol)
-    if np.abs(r).max(initial=0.0) > REALITY_TOL and family.dim:
+    nev = 0
+    if not family.dim:
+        x, J, r, perr, traces, nev = _solve(family, np.zeros(0), tol)
+    elif start is not None:
+        x, J, r, perr, traces, nev = _solve(family, _project(family, np.asarray(start, complex)), tol)
+    else:
         b = None
         for s in CONTINUATION:
             stage = tuple(Cone(c.p, 2 * np.pi + s * (c.alpha - 2 * np.pi)) for c in cones)
             fam_s = AccessoryFamily.of(stage)
-            x0 = fam_s.guess() if b is None else np.linalg.lstsq(
-                np.vstack([fam_s.N.real, fam_s.N.imag]),
-                np.concatenate([(b - fam_s.b_part).real, (b - fam_s.b_part).imag]), rcond=None)[0]
-            x, J, r, perr, traces, n = _solve(fam_s, x0, tol)
+            x, J, r, perr, traces, n = _solve(fam_s, fam_s.guess() if b is None else _project(fam_s, b), tol)
             nev += n
             b = fam_s.residues(x)
         family = fam_s

@@ -19,7 +19,7 @@ import numpy as np
 from .. import circle, virasoro
 from .._jax import jax, jnp
 from ..errors import UsageError
-from ._common import check_c
+from ._common import as_cones, check_c
 from .quadratic import AccessoryFamily
 
 #: Round-off of ``c/4 - c z^2 q`` from an exactly known q, relative to max |T| + |c|.
@@ -63,7 +63,7 @@ def residues_from_u(u, cones, radius_factor: float = 0.5, n: int = 256):
     so the second derivatives of a discrete u are never formed. Returns
     ``(b, change)``: the change between the radius and 0.6 x it estimates the error.
     """
-    cones = list(cones)
+    cones = as_cones(cones)
     g = jax.jit(jax.vmap(jax.grad(lambda x, y: u(x, y), argnums=(0, 1))))
     uu = jax.jit(jax.vmap(lambda x, y: u(x, y)))
     th = 2 * np.pi * np.arange(n) / n

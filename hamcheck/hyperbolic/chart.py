@@ -1,9 +1,9 @@
 """A chart of outcomes for two cone points: the Virasoro class over (cone angle, separation).
 
 Both cones have angle alpha and sit at ``-s`` and ``+s`` (Euclidean); method B
-gives q, the boundary potential T is classified by :func:`hamcheck.virasoro.classify`.
-Each cell also records the hyperbolic prediction
-``tr = 2 [cos^2(alpha/2) - sin^2(alpha/2) cosh d]`` is NOT used: the class is measured.
+gives q (each cell starting from its neighbour at the next larger s), and the class,
+trace, rotation number and constant representative come from the Hill monodromy of
+the boundary potential (the stabilizers of the full classification are skipped).
 
 >>> ch = two_cone_chart([2.0], [0.3], jobs=1)
 >>> ch.classes[0][0]
@@ -25,22 +25,40 @@ from ..errors import UsageError
 CLASS_CODES = {"elliptic": 0, "parabolic+": 1, "parabolic-": 1, "hyperbolic": 2, "+identity": 3, "-identity": 3}
 
 
-def _cell(alpha, s, c, M):
+def _cell(alpha, s, c, M, start=None):
     from .. import virasoro
     from .accessory import solve_accessory
     from .boundary import boundary_potential
     from .metric import Metric
 
     try:
-        sol = solve_accessory([(-s, alpha), (s, alpha)])
+        sol = solve_accessory([(-s, alpha), (s, alpha)], start=start)
     except Exception as exc:  # one unsolved cell must not sink the chart
         return {"class": "unsolved", "note": f"{type(exc).__name__}: {exc}"}
     m = Metric(lambda x, y: 0.0 * x, sol.cones, sol.q, "cell", construction=_Wrap(sol))
     T = boundary_potential(m, c, M)
-    d = virasoro.classify(np.asarray(T), c=c)
-    return {"class": d["class"], "trace": d["trace"], "rotation_number": d["rotation_number"],
-            "constant_representative": d["constant_representative"], "boundary_error": T.error,
-            "residual": sol.residual, "b": float(sol.b[1].real)}
+    # the chart needs class, trace and rotation number, not the stabilizers (which cost 4x more)
+    mono = virasoro.monodromy(np.asarray(T), c)
+    cls = monodromy_class(mono)
+    rho = virasoro.rotation_number(mono)
+    T0, _ = virasoro.constant_representative(cls, rho, mono.trace, mono.matrix, c)
+    return {"class": cls, "trace": mono.trace, "rotation_number": rho, "constant_representative": T0,
+            "boundary_error": T.error, "monodromy_error": mono.error, "residual": sol.residual,
+            "b": [float(sol.b[0].real), float(sol.b[1].real)]}
+
+
+def monodromy_class(mono) -> str:
+    """elliptic / parabolic+- / +-identity / hyperbolic from a :class:`hamcheck.virasoro.Monodromy`,
+    with the tolerance rule of :data:`hamcheck.virasoro.CLASS_TOL` (decided no finer than the monodromy is known)."""
+    from .. import virasoro
+
+    Mx, t = mono.matrix, mono.trace
+    scale = max(np.abs(Mx).max(), 1.0)
+    tol = virasoro.CLASS_TOL * scale + 1e3 * mono.error * scale
+    for sgn, name in ((1, "+"), (-1, "-")):
+        if abs(t - 2 * sgn) <= tol:
+            return f"{name}identity" if np.abs(Mx - sgn * np.eye(2)).max() <= tol else f"parabolic{name}"
+    return "elliptic" if abs(t) < 2 else "hyperbolic"
 
 
 @dataclass(frozen=True)
@@ -49,8 +67,14 @@ class _Wrap:
 
 
 def _row(args):
+    """One angle, separations from the largest down: each cell starts from its neighbour's residues."""
     alpha, seps, c, M = args
-    return [_cell(alpha, s, c, M) for s in seps]
+    out, start = {}, None
+    for s in sorted(seps, reverse=True):
+        cell = _cell(alpha, s, c, M, start)
+        out[s] = cell
+        start = cell["b"] if "b" in cell else None
+    return [out[s] for s in seps]
 
 
 @dataclass(frozen=True)
