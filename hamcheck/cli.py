@@ -41,6 +41,7 @@ SUBCOMMANDS: list[tuple[str, str]] = [
     ("holonomy", "hamcheck.cli:add_holonomy_parser"),
     ("classify", "hamcheck.cli:add_classify_parser"),
     ("stability", "hamcheck.cli:add_stability_parser"),
+    ("disk", "hamcheck.cli:add_disk_parser"),
 ]
 
 model_files = collect_files  # the name this module used before batch.py existed
@@ -220,6 +221,33 @@ def _on_scheduler(address: str):
             return run_batch(files, options, client, label=address, **kwargs)
 
     return run
+
+
+# ------------------------------------------------------------ hamcheck disk
+def add_disk_parser(sub) -> None:
+    """``hamcheck disk FILE [--c C] [--points N] [--seed S] [--only CHECK ...] [--json]`` (hyperbolic disks)."""
+    p = sub.add_parser("disk", help="validate a hyperbolic metric on the disk (cones or u in a .py file) and classify its orbit")
+    p.add_argument("file", metavar="FILE", help="a .py file defining cones = [(p, alpha), ...] or u(x, y) (and optionally c)")
+    p.add_argument("--c", type=float, default=None, help="central charge for the boundary potential (else c from the file, else 1)")
+    p.add_argument("--points", type=_positive_int, default=32, help="sampled points for the Liouville check (default 32)")
+    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--only", nargs="+", choices=["liouville", "cone_angles", "boundary"], metavar="CHECK")
+    p.add_argument("--json", action="store_true", help="print JSON instead of text")
+    p.set_defaults(run=run_disk)
+
+
+def run_disk(args) -> int:
+    import json
+
+    from .hyperbolic.command import format_orbit, run
+
+    report, orbit = run(args.file, args.c, args.points, args.seed, tuple(args.only) if args.only else None)
+    if args.json:
+        _print(json.dumps({"report": report.to_dict(), "orbit": orbit}, indent=2, default=str))
+    else:
+        _print(str(report))
+        _print(format_orbit(orbit) if orbit else "orbit not classified: the metric failed validation")
+    return 0 if report.passed else 1
 
 
 def build_parser() -> argparse.ArgumentParser:
