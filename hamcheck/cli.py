@@ -243,7 +243,8 @@ def run_disk(args) -> int:
 
     report, orbit = run(args.file, args.c, args.points, args.seed, tuple(args.only) if args.only else None)
     if args.json:
-        _print(json.dumps({"report": report.to_dict(), "orbit": orbit}, indent=2, default=str))
+        orbit_data = orbit.to_dict() if orbit is not None else None
+        _print(json.dumps({"report": report.to_dict(), "orbit": orbit_data}, indent=2, default=str))
     else:
         _print(str(report))
         _print(format_orbit(orbit) if orbit else "orbit not classified: the metric failed validation")

@@ -42,7 +42,7 @@ def test_poincare_disk_curvature_and_orbit():
     assert np.allclose(T, C / 4, atol=1e-14)
     d = hyperbolic.classify_metric(m, c=C)
     # T0 = c n^2/4 with n = 1: monodromy (-1)^1 I (virasoro.md), so the class is -identity
-    assert d["class"] == "-identity" and d["stabilizer_dim"] == 3 and abs(d["constant_representative"] - C / 4) < 1e-12
+    assert d["class"] == "-identity" and d["stabilizer_dim"] == 3 and abs(d["representative"] - C / 4) < 1e-12
 
 
 @pytest.mark.parametrize("alpha,p", [(1.0, 0j), (math.pi, 0.3 + 0.2j), (5.0, -0.4j), (4 * math.pi, 0.2)])
@@ -68,7 +68,7 @@ def test_cone_disk_validation_and_orbit_constant(alpha):
     T = hyperbolic.boundary_potential(m, C)
     d = virasoro.classify(T, c=C)
     # orbit of the constant c (alpha/2pi)^2/4 (from memory; the 1-cone conjecture of the issue, verified here)
-    assert abs(d["constant_representative"] - C * beta**2 / 4) < 1e-9
+    assert abs(d["representative"] - C * beta**2 / 4) < 1e-9
     # trace of the Hill monodromy 2 cos(2 pi sqrt(T0/c)) = 2 cos(alpha/2) (virasoro.md, constants)
     assert abs(d["trace"] - 2 * math.cos(alpha / 2)) < 1e-9
     if alpha in (4 * math.pi, 6 * math.pi):

@@ -8,7 +8,7 @@ several cone points two independent ways (:func:`compare_methods`).
 
 >>> from hamcheck import hyperbolic
 >>> d = hyperbolic.classify_metric(hyperbolic.cone_disk(3.0), c=1.0)
->>> round(d["constant_representative"], 12) == round((3.0 / (2 * 3.141592653589793))**2 / 4, 12)
+>>> round(d["representative"], 12) == round((3.0 / (2 * 3.141592653589793))**2 / 4, 12)
 True
 """
 

@@ -8,11 +8,13 @@ Hill operator ``c d^2 + T``) the developing map ``D`` of the metric restricted t
 
 >>> from hamcheck import hyperbolic
 >>> T = hyperbolic.boundary_potential(hyperbolic.poincare_disk(), c=2.0, M=8)
->>> T.tolist(), T.error < 1e-14
+>>> T.tolist(), T.error < 1e-13
 ([0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5], True)
 """
 
 from __future__ import annotations
+
+import dataclasses
 
 import numpy as np
 
@@ -141,9 +143,10 @@ def boundary_potential(metric, c, M: int = 256) -> BoundaryPotential:
     return BoundaryPotential(vals.real, err, c, how)
 
 
-def classify_metric(metric, c: float = 1.0, M: int = 256) -> dict:
-    """The Virasoro orbit of the metric's boundary potential: :func:`hamcheck.virasoro.classify` of T
-    plus ``boundary_error`` (T's estimated error) and ``how``.
+def classify_metric(metric, c: float = 1.0, M: int = 256):
+    """The Virasoro orbit of the metric's boundary potential: the
+    :class:`hamcheck.circle.OrbitClassification` of :func:`hamcheck.virasoro.classify` of T, with
+    ``boundary_error`` (T's estimated error), ``how`` and ``metric`` in its ``details``.
 
     >>> from hamcheck import hyperbolic
     >>> d = classify_metric(hyperbolic.cone_disk(4 * np.pi))
@@ -152,5 +155,5 @@ def classify_metric(metric, c: float = 1.0, M: int = 256) -> dict:
     """
     T = boundary_potential(metric, c, M)
     out = virasoro.classify(np.asarray(T), c=c)
-    out.update({"boundary_error": T.error, "how": T.how, "metric": metric.name})
-    return out
+    extra = {"boundary_error": float(T.error), "how": T.how, "metric": metric.name}
+    return dataclasses.replace(out, details={**out.details, **extra})

@@ -5,9 +5,9 @@ gives q (each cell starting from its neighbour at the next larger s), and the cl
 trace, rotation number and constant representative come from the Hill monodromy of
 the boundary potential (the stabilizers of the full classification are skipped).
 
->>> ch = two_cone_chart([2.0], [0.3], jobs=1)
+>>> ch = two_cone_chart([2.0], [0.3], jobs=1)   # sharp cones far apart in g: |trace| ~ 23
 >>> ch.classes[0][0]
-'elliptic'
+'hyperbolic'
 """
 
 from __future__ import annotations
@@ -49,12 +49,12 @@ def _cell(alpha, s, c, M, start=None):
 
 def monodromy_class(mono) -> str:
     """elliptic / parabolic+- / +-identity / hyperbolic from a :class:`hamcheck.virasoro.Monodromy`,
-    with the tolerance rule of :data:`hamcheck.virasoro.CLASS_TOL` (decided no finer than the monodromy is known)."""
+    with the tolerance rule of :data:`hamcheck.virasoro.TOLERANCES.trace_class` (decided no finer than the monodromy is known)."""
     from .. import virasoro
 
     Mx, t = mono.matrix, mono.trace
     scale = max(np.abs(Mx).max(), 1.0)
-    tol = virasoro.CLASS_TOL * scale + 1e3 * mono.error * scale
+    tol = virasoro.TOLERANCES.trace_class * scale + 1e3 * mono.error * scale
     for sgn, name in ((1, "+"), (-1, "-")):
         if abs(t - 2 * sgn) <= tol:
             return f"{name}identity" if np.abs(Mx - sgn * np.eye(2)).max() <= tol else f"parabolic{name}"

@@ -67,8 +67,8 @@ def run(path, c=None, points: int = 32, seed: int = 0, only=None):
 
 
 def format_orbit(d: dict) -> str:
-    T0 = d["constant_representative"]
-    M = np.asarray(d["monodromy"])
+    T0 = d["representative"]
+    M = np.asarray(d["matrix"])
     return "\n".join([
         f"orbit of the boundary potential (c = {d['c']:g}; T from {d['how']}, error ~{d['boundary_error']:.0e})",
         f"  class               {d['class']}",
@@ -76,5 +76,5 @@ def format_orbit(d: dict) -> str:
         f"  monodromy           [[{M[0, 0]:.10g}, {M[0, 1]:.10g}], [{M[1, 0]:.10g}, {M[1, 1]:.10g}]]",
         f"  rotation number     {d['rotation_number']:.15g}",
         f"  stabilizer dim      {d['stabilizer_dim']} (solutions), {d['stabilizer_dim_fourier']} (Fourier kernel)",
-        f"  constant on orbit   {'none' if T0 is None else f'{T0:.15g}'}  ({d['constant_note']})",
+        f"  constant on orbit   {'none' if T0 is None else f'{T0:.15g}'}  ({d['representative_note']})",
     ])
