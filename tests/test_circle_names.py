@@ -6,7 +6,7 @@ CIRCLE = {
     "grid", "wavenumbers", "integrate", "mean", "derivative", "real_modes", "resample", "mode_vector_to_samples",
     "samples_to_mode_vector", "vector_modes", "spectral_tail", "resolution_warning", "Periodic", "LoadedSamples",
     "load_periodic_samples", "ClassificationInput", "read_input", "coupling", "Propagation", "propagate", "transport",
-    "ordered_product", "prefix_products", "expm_traceless2", "magnus_steps", "ToleranceRecord", "Kernel", "kernel", "subspace_distance",
+    "ordered_product", "prefix_products", "expm_traceless2", "magnus_steps", "magnus6_exponent", "ToleranceRecord", "Kernel", "kernel", "subspace_distance",
     "OrbitClassification", "ResolutionStudy", "resolution_study", "ChartResolution", "check_resolution_study",
     "summarize_resolution", "fit_decay", "cocycles", "check_coadjoint_action", "central_ratio", "is_coboundary",
     "CircleTolerances", "TOLERANCES",

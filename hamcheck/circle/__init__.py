@@ -44,7 +44,7 @@ from .periodic import (
     vector_modes,
     wavenumbers,
 )
-from .propagator import Propagation, expm_traceless2, magnus_steps, ordered_product, prefix_products, propagate, transport
+from .propagator import Propagation, expm_traceless2, magnus6_exponent, magnus_steps, ordered_product, prefix_products, propagate, transport
 from .resolution import (
     ChartResolution,
     ResolutionStudy,

@@ -39,7 +39,7 @@ from ..errors import ConvergenceError, UsageError
 from .periodic import TWO_PI, Periodic
 from .tolerances import TOLERANCES
 
-__all__ = ["Propagation", "propagate", "transport", "magnus_steps", "ordered_product", "prefix_products", "expm_traceless2"]
+__all__ = ["Propagation", "propagate", "transport", "magnus_steps", "magnus6_exponent", "ordered_product", "prefix_products", "expm_traceless2"]
 
 _G = math.sqrt(15.0) / 10.0
 _NODES = (0.5 - _G, 0.5, 0.5 + _G)
@@ -84,13 +84,18 @@ def magnus_steps(generator: Periodic, N: int, expm=None) -> np.ndarray:
     """The N one-step propagators ``exp(Omega_j)`` (shape (N, n, n)) of the sixth-order Magnus scheme."""
     h = TWO_PI / N
     A1, A2, A3 = (generator.on_grid(N, nd * h) for nd in _NODES)
+    return (expm or scipy.linalg.expm)(magnus6_exponent(A1, A2, A3, h))
+
+
+def magnus6_exponent(A1, A2, A3, h):
+    """The sixth-order Magnus exponent of one step of length ``h`` from the generator at the three
+    Gauss–Legendre nodes (arrays ``(..., n, n)``); any linear ODE ``Y' = A Y``, real or complex."""
     B1 = h * A2
     B2 = (math.sqrt(15.0) * h / 3.0) * (A3 - A1)
     B3 = (10.0 * h / 3.0) * (A3 - 2 * A2 + A1)
     C1 = _comm(B1, B2)
     C2 = -_comm(B1, 2 * B3 + C1) / 60.0
-    W = B1 + B3 / 12.0 + _comm(-20 * B1 - B3 + C1, B2 + C2) / 240.0
-    return (expm or scipy.linalg.expm)(W)
+    return B1 + B3 / 12.0 + _comm(-20 * B1 - B3 + C1, B2 + C2) / 240.0
 
 
 def ordered_product(E) -> np.ndarray:

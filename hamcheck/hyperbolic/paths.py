@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..circle.propagator import expm_traceless2, magnus6_exponent, ordered_product
 from ..errors import ConvergenceError
 
 #: Target error of a propagator relative to its norm; products of N 2x2
@@ -49,28 +50,6 @@ class Circle:
         return self.center + self.r * e, 2j * np.pi * self.r * e
 
 
-def _mul(A, B):
-    return np.einsum("...ij,...jk->...ik", A, B)
-
-
-def _comm(A, B):
-    return _mul(A, B) - _mul(B, A)
-
-
-def _expm_traceless(W):
-    """exp of traceless 2x2 (complex) matrices: ``cosh(s) I + sinh(s)/s W``, ``s^2 = -det W``."""
-    s2 = W[..., 0, 0] ** 2 + W[..., 0, 1] * W[..., 1, 0]
-    s = np.sqrt(s2 + 0j)
-    small = np.abs(s2) < 1e-6
-    ss = np.where(small, 1.0, s)
-    ch = np.where(small, 1 + s2 / 2 + s2**2 / 24 + s2**3 / 720, np.cosh(ss))
-    sh = np.where(small, 1 + s2 / 6 + s2**2 / 120 + s2**3 / 5040, np.sinh(ss) / ss)
-    E = sh[..., None, None] * W
-    E[..., 0, 0] += ch
-    E[..., 1, 1] += ch
-    return E
-
-
 def _steps(q, path, N):
     """The N Magnus-6 step propagators (Blanes, Casas, Oteo, Ros, Phys. Rep. 470 (2009); from memory,
     order 6 verified in the tests)."""
@@ -80,24 +59,7 @@ def _steps(q, path, N):
     A = np.zeros(t.shape + (2, 2), complex)
     A[..., 0, 1] = dz
     A[..., 1, 0] = -dz * q(z)
-    A1, A2, A3 = A[:, 0], A[:, 1], A[:, 2]
-    B1 = h * A2
-    B2 = (math.sqrt(15.0) * h / 3.0) * (A3 - A1)
-    B3 = (10.0 * h / 3.0) * (A3 - 2 * A2 + A1)
-    C1 = _comm(B1, B2)
-    C2 = -_comm(B1, 2 * B3 + C1) / 60.0
-    W = B1 + B3 / 12.0 + _comm(-20 * B1 - B3 + C1, B2 + C2) / 240.0
-    return _expm_traceless(W)
-
-
-def _product(E):
-    """``E[N-1] ... E[0]`` by pairwise reduction."""
-    while E.shape[0] > 1:
-        if E.shape[0] % 2:
-            E = np.concatenate([E[:-2], _mul(E[-1], E[-2])[None]])
-            continue
-        E = _mul(E[1::2], E[0::2])
-    return E[0]
+    return expm_traceless2(magnus6_exponent(A[:, 0], A[:, 1], A[:, 2], h))
 
 
 @dataclass(frozen=True)
@@ -117,7 +79,7 @@ def propagate(q, path, *, tol: float = PROPAGATOR_TOL, steps: int = 32, max_step
     True
     """
     N = int(steps)
-    prev = _product(_steps(q, path, N))
+    prev = ordered_product(_steps(q, path, N))
     best = np.inf
     while True:
         N *= 2
@@ -126,7 +88,7 @@ def propagate(q, path, *, tol: float = PROPAGATOR_TOL, steps: int = 32, max_step
                 f"continuing y'' + q y = 0 along {path} did not reach {tol:.0e} in {max_steps} steps "
                 f"(estimate {best:.1e}): the path passes too close to a pole of q"
             )
-        cur = _product(_steps(q, path, N))
+        cur = ordered_product(_steps(q, path, N))
         scale = max(np.abs(cur).max(), 1.0)
         err = np.abs(cur - prev).max() / scale / 63.0
         if not np.all(np.isfinite(cur)):

@@ -38,7 +38,6 @@ __all__ = [
     "base_form_residual",
     "base_form_check",
     "chart_resolution_study",
-    "pfaffian",
 ]
 
 TWO_PI = 2.0 * np.pi
