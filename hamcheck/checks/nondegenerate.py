@@ -28,9 +28,27 @@ def statement(sign: int, flow: int) -> str:
     )
 
 
+def singular_range(W):
+    """Smallest and largest singular value of the 2-form ``W`` (its antisymmetric part).
+
+    ``i A`` is Hermitian for a real antisymmetric ``A``, with eigenvalues ``+-sigma``
+    (and 0 in odd dim), so one Hermitian eigenvalue solve gives the singular values
+    to the same absolute accuracy as an SVD (about eps * sigma_max) at a fraction of
+    its cost, and compiles faster. ``A = (W - W^T) / 2`` equals ``W`` exactly when
+    ``W`` is antisymmetric; otherwise ``antisymmetric`` reports the rest.
+
+    >>> import jax.numpy as jnp
+    >>> [float(s) for s in singular_range(jnp.array([[0.0, 2.0], [-2.0, 0.0]]))]
+    [2.0, 2.0]
+    """
+    A = (W - W.T) / 2
+    lam = jnp.linalg.eigvalsh(1j * A)  # ascending, real
+    return jnp.min(jnp.abs(lam)), jnp.maximum(-lam[0], lam[-1])
+
+
 def nondegenerate(model, x, probe):
-    s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
-    return {"residual": s[-1] / jnp.maximum(s[0], TINY), "smax": s[0]}
+    smin, smax = singular_range(model.form_at(x))
+    return {"residual": smin / jnp.maximum(smax, TINY), "smax": smax}
 
 
 def relative_to_typical_scale(out) -> np.ndarray:
@@ -59,8 +77,8 @@ def search_degenerate(model, pts, r, out, settings):
         def build(model):
             # the typical scale is an argument, so the program is reused across calls
             def ratio_t(x, t):
-                s = jnp.linalg.svd(model.form_at(x), compute_uv=False)
-                return s[-1] / jnp.maximum(jnp.maximum(s[0], t), 1e-300)
+                smin, smax = singular_range(model.form_at(x))
+                return smin / jnp.maximum(jnp.maximum(smax, t), 1e-300)
 
             return jax.jit(jax.value_and_grad(ratio_t))
 
