@@ -28,22 +28,50 @@ def statement(sign: int, flow: int) -> str:
     )
 
 
-def singular_range(W):
-    """Smallest and largest singular value of the 2-form ``W`` (its antisymmetric part).
+#: Largest dim whose singular values come from a full SVD; above, from one LU factorisation
+#: (an SVD of a 512 x 512 matrix took 84 ms, its LU 11 ms, a Hermitian eigenvalue solve 370 ms).
+SVD_MAX_DIM = 64
+#: Inverse and power iteration steps on W^T W above SVD_MAX_DIM (each a pair of triangular solves
+#: or matrix-vector products): from a random start the estimates converge like
+#: (sigma_min / sigma_next)^(2k), and for the worst start within a factor n^(1/4k) (1.3 at dim 512).
+ITERATIONS = 6
 
-    ``i A`` is Hermitian for a real antisymmetric ``A``, with eigenvalues ``+-sigma``
-    (and 0 in odd dim), so one Hermitian eigenvalue solve gives the singular values
-    to the same absolute accuracy as an SVD (about eps * sigma_max) at a fraction of
-    its cost, and compiles faster. ``A = (W - W^T) / 2`` equals ``W`` exactly when
-    ``W`` is antisymmetric; otherwise ``antisymmetric`` reports the rest.
+
+def singular_range(W):
+    """Smallest and largest singular value of the form matrix ``W``.
+
+    Up to ``SVD_MAX_DIM`` from an SVD. Above, from one LU factorisation: inverse
+    iteration on ``W^T W`` for the smallest (an estimate from above, exact for a
+    singular ``W``: a zero pivot gives 0) and power iteration for the largest (an
+    estimate from below), each ``ITERATIONS`` steps from a fixed start.
 
     >>> import jax.numpy as jnp
     >>> [float(s) for s in singular_range(jnp.array([[0.0, 2.0], [-2.0, 0.0]]))]
     [2.0, 2.0]
     """
-    A = (W - W.T) / 2
-    lam = jnp.linalg.eigvalsh(1j * A)  # ascending, real
-    return jnp.min(jnp.abs(lam)), jnp.maximum(-lam[0], lam[-1])
+    d = W.shape[0]
+    if d <= SVD_MAX_DIM:
+        s = jnp.linalg.svd(W, compute_uv=False)
+        return s[-1], s[0]
+    from jax.scipy.linalg import lu_factor, lu_solve
+
+    lu = lu_factor(W)
+    # a fixed start with no special direction (all components of similar size, irregular signs)
+    start = jnp.cos(jnp.arange(1, d + 1, dtype=W.dtype) * 2.399963)
+    y = start / jnp.linalg.norm(start)
+    inv = y
+    for _ in range(ITERATIONS):
+        z = lu_solve(lu, lu_solve(lu, y, trans=1))  # (W^T W)^-1 y = W^-1 W^-T y
+        inv = jnp.linalg.norm(z)
+        y = z / inv
+    smin = jnp.where(jnp.isfinite(inv) & (inv > 0), 1.0 / jnp.sqrt(inv), 0.0)
+    y = start / jnp.linalg.norm(start)
+    big = jnp.zeros((), W.dtype)
+    for _ in range(ITERATIONS):
+        z = W.T @ (W @ y)
+        big = jnp.linalg.norm(z)
+        y = z / jnp.maximum(big, TINY)
+    return smin, jnp.sqrt(big)
 
 
 def nondegenerate(model, x, probe):

@@ -55,11 +55,11 @@ class Settings:
     workers: threads that compile the programs and run chunks of the points in
         parallel (None: every core the process may use).
     max_batch: most points vmapped together; 1 maps the points sequentially
-        (a scan, no vmap). Vmapped batches of CP^n checks (batched linear solves
-        and SVDs) deadlocked jaxlib 0.10.2's CPU runtime on this 2-core machine
-        (64 points at dim 16, 16 points at dim 32); sequential mapping never did,
-        and cost the same (0.16 s for 64 points at dim 16) since compilation
-        dominates. Raise it only where the runtime is known to cope.
+        (a scan, no vmap). Vmapped batches of LAPACK calls deadlock jaxlib
+        0.10.2's CPU runtime when two programs of them run concurrently or
+        alternate (benchmarks/repro_batched_lapack.py); the plain scan never
+        did. With ``max_batch > 1`` the chunks of points run one after the
+        other (one worker). Raise it only where the runtime is known to cope.
     """
 
     pairs: int = 8
@@ -177,7 +177,8 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
     a remainder would make XLA compile the program twice.
     """
     n = xs.shape[0]
-    workers = min(workers_available(settings), n)
+    # vmapped batches of LAPACK calls must not run concurrently (see Settings.max_batch)
+    workers = 1 if settings.max_batch > 1 else min(workers_available(settings), n)
     chunk = -(-n // workers)
     batch = _batch_size(model, chunk, settings)
     chunk = -(-chunk // batch) * batch
