@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._jax import jax, jnp
-from ..cache import compiled
+from ..cache import compile_lowered, compiled
 from ..diagnose import Diagnosis, at
 from ._base import TINY, Check, Tolerance
 
@@ -108,10 +108,14 @@ def search_degenerate(model, pts, r, out, settings):
                 smin, smax = singular_range(model.form_at(x))
                 return smin / jnp.maximum(jnp.maximum(smax, t), 1e-300)
 
-            return jax.jit(jax.value_and_grad(ratio_t))
+            spec = (jax.ShapeDtypeStruct((model.dim,), jnp.float64), jax.ShapeDtypeStruct((), jnp.float64))
+            fn = jax.jit(jax.value_and_grad(ratio_t)).lower(*spec)
+            from .run import FAST_COMPILE  # the cheap optimisation level of the checks' programs
 
-        grad_fn = compiled(model, "degeneracy-search", build)
-        fun = lambda x: grad_fn(x, typical)  # noqa: E731
+            return compile_lowered(fn, FAST_COMPILE if settings.fast_compile else None)
+
+        grad_fn = compiled(model, ("degeneracy-search", settings.fast_compile), build)
+        fun = lambda x: grad_fn(x, jnp.float64(typical))  # noqa: E731
 
         def objective(x):
             v, g = fun(jnp.asarray(x))
