@@ -39,7 +39,12 @@ class SharedPoint:
         self._model = model
         self.point = x
         self._memo = {}
-        self.ops = _SharedOps(self)
+
+    @property
+    def ops(self):
+        # made on each use: a stored one would form a cycle (view <-> ops) that keeps the
+        # model alive until the garbage collector runs
+        return _SharedOps(self)
 
     def __getattr__(self, name):  # everything else is the model's
         return getattr(self._model, name)

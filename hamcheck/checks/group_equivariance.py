@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._jax import jnp
-from ..cache import compiled
+from ..cache import memoized
 from ..diagnose import Diagnosis, at
 from ._base import GROUP_ELEMENTS, TINY, Check, Tolerance, group_elements, needs_action
 
@@ -26,6 +26,7 @@ def probes(model, rng, n, settings):
     return {"g": group_elements(model, rng, n, settings.group_scale)}
 
 
+@memoized(maxsize=8)
 def _sparse_basis(algebra):
     """The basis as its nonzero entries, and the inverse Gram matrix of the coordinates (once per algebra)."""
     import scipy.sparse
@@ -53,7 +54,7 @@ def coadjoint(algebra, g, mu):
     >>> np.allclose(coadjoint(algebra, g, mu), algebra.coadjoint(g, mu))  # doctest: +SKIP
     True
     """
-    b_idx, i_idx, j_idx, vals, gram_inv, m = compiled(algebra, "sparse-basis", _sparse_basis)
+    b_idx, i_idx, j_idx, vals, gram_inv, m = _sparse_basis(algebra)
     nu = jnp.asarray(gram_inv) @ mu
     vals = jnp.asarray(vals)
     Z = jnp.zeros((m, m), dtype=vals.dtype).at[i_idx, j_idx].add(nu[b_idx] * vals)
