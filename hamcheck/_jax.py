@@ -2,21 +2,64 @@
 
 hamcheck computes in float64: round-off floors near 1e-16 are what make the
 default tolerances (see ``numerics.py``) meaningful. jax defaults to float32,
-so importing hamcheck switches ``jax_enable_x64`` on. The other global setting
-is jax's persistent compilation cache, turned on in hamcheck's own folder unless
-the user configured one or set ``HAMCHECK_CACHE_DIR=`` (see :mod:`hamcheck.cache`);
-platform and devices are left as the user set them.
+so importing hamcheck switches ``jax_enable_x64`` on. The other global settings
+are jax's persistent compilation cache, turned on in hamcheck's own folder unless
+the user configured one or set ``HAMCHECK_CACHE_DIR=`` (see :mod:`hamcheck.cache`),
+and single-threaded OpenBLAS (see :func:`single_threaded_lapack`); platform and
+devices are left as the user set them.
 """
 
-import jax
+import ctypes
+import os
+
+#: Set this environment variable (to any thread count) to keep OpenBLAS's own threads.
+BLAS_THREADS_ENV = "OPENBLAS_NUM_THREADS"
+_SET_THREADS = ("openblas_set_num_threads", "scipy_openblas_set_num_threads",
+                "scipy_openblas_set_num_threads64_", "openblas_set_num_threads64_")
+
+
+def single_threaded_lapack() -> None:
+    """Run OpenBLAS (numpy's and scipy's, whose LAPACK jax's CPU linear algebra calls) on one thread.
+
+    Why: jax calls LAPACK from XLA's own worker threads. With OpenBLAS's thread pool on
+    top, a jitted vmap of linear solves and eigen/singular value solves never finished
+    (CP^8 at 64 points: no result after 150 s; with one OpenBLAS thread 38 s including
+    compilation, on a loaded 2-core machine), and a 3x3 ``scipy.linalg.solve`` took
+    20 ms instead of 0.05 ms under load (threads spinning for work). hamcheck's
+    parallelism is over points instead (``checks.run``). A thread count the user set in
+    ``OPENBLAS_NUM_THREADS`` is left alone.
+    """
+    if BLAS_THREADS_ENV in os.environ:
+        return
+    os.environ[BLAS_THREADS_ENV] = "1"  # libraries loaded from now on read it
+    try:  # libraries already loaded (numpy imported before hamcheck) take the call
+        with open("/proc/self/maps") as maps:
+            paths = {line.split()[-1] for line in maps if "openblas" in line.lower() and line.rstrip().endswith(".so")}
+    except OSError:  # not Linux: the environment variable is all we can do
+        return
+    for path in sorted(paths):
+        try:
+            lib = ctypes.CDLL(path)
+        except OSError:
+            continue
+        for name in _SET_THREADS:
+            setter = getattr(lib, name, None)
+            if setter is not None:
+                setter(1)
+                break
+
+
+single_threaded_lapack()
+
+import jax  # noqa: E402
 
 if not jax.config.read("jax_enable_x64"):
     jax.config.update("jax_enable_x64", True)
 
-import jax.numpy as jnp
+import jax.numpy as jnp  # noqa: E402
 
-from .cache import configure_persistent_cache
+from .cache import configure_persistent_cache  # noqa: E402
 
 configure_persistent_cache(jax)
 
-__all__ = ["jax", "jnp"]
+__all__ = ["jax", "jnp", "single_threaded_lapack"]

@@ -40,7 +40,9 @@ import warnings
 import weakref
 from pathlib import Path
 
-__all__ = ["CacheWarning", "clear", "compile_lowered", "compiled", "memoized", "persistent_cache_dir"]
+__all__ = [
+    "CacheWarning", "clear", "compile_lowered", "compiled", "has_compiled", "memoized", "parallel_map", "persistent_cache_dir",
+]
 
 ENV = "HAMCHECK_CACHE_DIR"
 
@@ -59,6 +61,22 @@ def compiled(owner, key, build):
     if key not in store:
         store[key] = build(owner)
     return store[key]
+
+
+def has_compiled(owner, key) -> bool:
+    """True when :func:`compiled` already holds ``(owner, key)``."""
+    return key in _PER_OWNER.get(owner, {})
+
+
+def parallel_map(fn, items, workers: int = 2):
+    """``[fn(item) for item in items]`` in up to ``workers`` threads (jax compiles and runs without the GIL)."""
+    items = list(items)
+    if len(items) <= 1 or workers <= 1:
+        return [fn(item) for item in items]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=min(workers, len(items))) as pool:
+        return list(pool.map(fn, items))
 
 
 def memoized(maxsize: int = 8):

@@ -328,6 +328,9 @@ class Model:
             raise ModelError(f"sample(rng) returned shape {x0.shape}; expected ({self.dim},) for dim={self.dim}")
         if not np.all(np.isfinite(x0)):
             raise ModelError(f"sample(rng) returned a non-finite point {x0}; expected a point of the chart's domain")
+        if self.traced and self._valid_in_one_program(x0):
+            return
+        # the slow path, one function at a time, says exactly what is wrong
         k, d = self.algebra.dim, self.dim
         ident = np.eye(self.algebra.basis.shape[1], dtype=self.algebra.basis.dtype) if self.algebra.is_matrix else None
         expected = {
@@ -362,6 +365,39 @@ class Model:
                 ) from None
             if X.shape != (k, d):
                 raise ModelError(f"derived vector fields have shape {X.shape}; expected {(k, d)}")
+
+    def _valid_in_one_program(self, x0) -> bool:
+        """Every function (and the derived vector fields) at ``x0`` in one jitted call, all as declared.
+
+        One small program (compiled once, and kept by the persistent cache) instead
+        of dispatching each jax operation of the user's functions eagerly, which
+        compiled every operation on its own and cost about 1 s for the sphere.
+        False on anything unexpected: the caller then finds and names the problem.
+        """
+        k, d = self.algebra.dim, self.dim
+        expected = {"form": (d, d), "moment": (k,), "fields": (k, d)}
+        if self.vector_fields is not None:
+            expected["vector_fields"] = (k, d)
+        if self.action is not None:
+            expected["action"] = (d,)
+        ident = np.eye(self.algebra.basis.shape[1], dtype=self.algebra.basis.dtype) if self.algebra.is_matrix else None
+
+        def values(x):
+            out = {"form": self.form(x), "moment": self.moment(x), "fields": self.fields_at(x)}
+            if self.vector_fields is not None:
+                out["vector_fields"] = self.vector_fields(x)
+            if self.action is not None:
+                out["action"] = self.action(jnp.asarray(ident), x)
+            return {key: jnp.asarray(v) for key, v in out.items()}
+
+        try:
+            got = jax.jit(values)(jnp.asarray(x0))
+        except Exception:
+            return False
+        return all(
+            key in got and tuple(got[key].shape) == shape and not jnp.iscomplexobj(got[key])
+            for key, shape in expected.items()
+        )
 
     def _eager_group(self, ident):
         return jnp.asarray(ident) if self.traced else ident

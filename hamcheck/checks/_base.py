@@ -103,6 +103,9 @@ class Check:
       outputs over all points (default ``outputs["residual"]``);
     * ``refine(model, points, residuals, outputs, settings) -> (points, residuals, note)``:
       an optional search beyond the samples (the degenerate-point search);
+    * ``own_program``: compile the kernel as a program of its own, in parallel with the
+      program the other kernels share (for a kernel whose compilation dominates and
+      which shares little with the others, such as the flow check's RK4 steps);
     * ``finding_kinds``: the kinds ``diagnose`` can report (listed in ``FINDING_KINDS``).
     """
 
@@ -116,6 +119,7 @@ class Check:
     compare: str = "below"
     residuals: Callable = field(default=_plain_residual)
     refine: Callable | None = None
+    own_program: bool = False
     finding_kinds: tuple[str, ...] = ()
     extra_tolerances: tuple[tuple[str, Tolerance], ...] = ()
 

@@ -49,10 +49,9 @@ def action(model, x, probe):
     fields = model.fields_at(x)
 
     def one(xi, eta):
-        Xxi = lambda y: xi @ model.fields_at(y)  # noqa: E731
-        Xeta = lambda y: eta @ model.fields_at(y)  # noqa: E731
-        t1 = ops.jvp(Xeta, x, xi @ fields)
-        t2 = ops.jvp(Xxi, x, eta @ fields)
+        # (DX_eta) X_xi and (DX_xi) X_eta from the fields' shared linearization at x
+        t1 = eta @ ops.jvp(model.fields_at, x, xi @ fields)
+        t2 = xi @ ops.jvp(model.fields_at, x, eta @ fields)
         br = t1 - t2
         target = flow * (model.algebra.bracket(xi, eta) @ fields)
         scale = jnp.abs(t1) + jnp.abs(t2) + jnp.abs(target)

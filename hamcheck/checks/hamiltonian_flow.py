@@ -238,5 +238,5 @@ def diagnose(ev) -> Diagnosis:
 
 CHECK = Check(
     "flow", statement, hamiltonian_flow, TOLERANCE, diagnose=diagnose, probes=probes, applies=applies,
-    finding_kinds=("flow-sign",),
+    finding_kinds=("flow-sign",), own_program=True,
 )

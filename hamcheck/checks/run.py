@@ -15,6 +15,7 @@ one point is reported while the other points are still checked.
 from __future__ import annotations
 
 import dataclasses
+import os
 import shlex
 import time
 import zlib
@@ -23,13 +24,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._jax import jax, jnp
-from ..cache import compile_lowered, compiled
+from ..cache import compile_lowered, compiled, has_compiled, parallel_map
 from ..diagnose import Evidence
 from ..errors import UsageError
 from ..model import Model
 from ..numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
 from ..report import CheckResult, Finding, Report
 from . import _registry
+from ._shared import SharedPoint
 
 __all__ = ["check", "Settings", "replay_command"]
 
@@ -50,12 +52,14 @@ class Settings:
         worst samples (0 disables the search; the report then says so).
     memory_budget: bytes of intermediate arrays per vmapped batch of points.
     fast_compile: compile with XLA's cheap optimisation level (see FAST_COMPILE).
+    workers: threads that compile the programs and run chunks of the points in
+        parallel (None: every core the process may use).
     max_batch: most points vmapped together; 1 maps the points sequentially
-        (a scan, no vmap). Vmapped batches of CP^n checks (batched linear solves
-        and SVDs) deadlocked jaxlib 0.10.2's CPU runtime on this 2-core machine
-        (64 points at dim 16, 16 points at dim 32); sequential mapping never did,
-        and cost the same (0.16 s for 64 points at dim 16) since compilation
-        dominates. Raise it only where the runtime is known to cope.
+        (a scan, no vmap). Vmapped batches of LAPACK calls deadlock jaxlib
+        0.10.2's CPU runtime when two programs of them run concurrently or
+        alternate (benchmarks/repro_batched_lapack.py); the plain scan never
+        did. With ``max_batch > 1`` the chunks of points run one after the
+        other (one worker). Raise it only where the runtime is known to cope.
     """
 
     pairs: int = 8
@@ -67,6 +71,7 @@ class Settings:
     memory_budget: float = 2.0e8
     max_batch: int = 1
     fast_compile: bool = True
+    workers: int | None = None
 
 
 def replay_command(model: Model, seed: int, points: int, check_name: str | None = None) -> str:
@@ -144,45 +149,96 @@ def _pad(tree, n_pad):
     return jax.tree_util.tree_map(pad, tree)
 
 
-def _run_traced(model, kernels, xs, probes, settings):
-    """Run all kernels in one jit; on a tracing failure, isolate per kernel.
+def workers_available(settings: Settings) -> int:
+    """Threads that run programs: ``settings.workers``, else the cores this process may use."""
+    if settings.workers is not None:
+        return max(1, int(settings.workers))
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not Linux
+        return max(1, os.cpu_count() or 1)
 
-    Points are padded to a whole number of equal batches: a remainder batch
-    would make XLA compile the whole program twice.
+
+def _programs(checks_by_name, names):
+    """The kernels grouped into programs: one shared program, plus one per check with ``own_program``."""
+    shared = [nm for nm in names if not getattr(checks_by_name.get(nm), "own_program", False)]
+    alone = [[nm] for nm in names if nm not in shared]
+    return ([shared] if shared else []) + alone
+
+
+def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
+    """Run the kernels in few jitted programs; on a tracing failure, isolate per kernel.
+
+    The kernels sharing the form and its derivatives run in one program; a check
+    with ``own_program`` (whose compilation dominates) gets its own, and the
+    programs compile in parallel threads (XLA releases the GIL while compiling).
+    The points are split into ``workers`` equal chunks run in parallel threads by
+    the same compiled program. Points are padded to whole chunks and batches:
+    a remainder would make XLA compile the program twice.
     """
     n = xs.shape[0]
-    batch = _batch_size(model, n, settings)
-    n_pad = -(-n // batch) * batch
-    xs_j = jnp.asarray(_pad(xs, n_pad))
-    probes_j = jax.tree_util.tree_map(jnp.asarray, _pad(probes, n_pad))
+    # vmapped batches of LAPACK calls must not run concurrently (see Settings.max_batch)
+    workers = 1 if settings.max_batch > 1 else min(workers_available(settings), n)
+    chunk = -(-n // workers)
+    batch = _batch_size(model, chunk, settings)
+    chunk = -(-chunk // batch) * batch
+    n_pad = chunk * workers
+    xs_p = _pad(xs, n_pad)
+    probes_p = _pad(probes, n_pad)
 
-    def run(names):
+    def lowered(names):
         def per_point(args):
             x, pr = args
-            return {nm: kernels[nm](model, x, pr.get(nm, {})) for nm in names}
+            view = SharedPoint(model, x)  # form, fields, moment and their linearizations, once per point
+            return {nm: kernels[nm](view, x, pr.get(nm, {})) for nm in names}
 
-        args = (xs_j, {nm: probes_j.get(nm, {}) for nm in names})
+        spec = jax.tree_util.tree_map(
+            lambda a: jax.ShapeDtypeStruct((chunk,) + a.shape[1:], a.dtype),
+            (xs_p, {nm: probes_p.get(nm, {}) for nm in names}),
+        )
         # one compiled program per model and layout: re-checking with another seed reuses it
-        shapes = jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), args)
-        key = (tuple(names), batch, settings.fast_compile, str(shapes))
-        def build(_model):
-            if batch == 1:  # a plain scan: no batched custom calls (see Settings.max_batch)
-                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
-            else:
-                fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
-            return compile_lowered(fn.lower(*args), FAST_COMPILE if settings.fast_compile else None)
+        key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
+        if batch == 1:  # a plain scan: no batched custom calls
+            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
+        else:
+            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
+        return key, lambda: fn.lower(*spec)
 
-        out = compiled(model, ("checks", key), build)(*args)
-        return jax.tree_util.tree_map(lambda a: np.asarray(a)[:n], out)
+    options = FAST_COMPILE if settings.fast_compile else None
+
+    def programs(groups):
+        """Compiled programs of the groups: lowered here (tracing holds the GIL), compiled in parallel."""
+        keyed = [lowered(names) for names in groups]
+        todo = {key: lower() for key, lower in keyed if not has_compiled(model, key)}
+        built = parallel_map(lambda low: compile_lowered(low, options), list(todo.values()), workers_available(settings))
+        found = dict(zip(todo, built))
+        return [compiled(model, key, lambda _model, k=key: found[k]) for key, _ in keyed]
+
+    def run_all(groups):
+        progs = programs(groups)
+        parts = [
+            (xs_p[w * chunk:(w + 1) * chunk], jax.tree_util.tree_map(lambda a: a[w * chunk:(w + 1) * chunk], probes_p))
+            for w in range(workers)
+        ]
+
+        def run_chunk(part):
+            X, P = part
+            outs = {}
+            for names, prog in zip(groups, progs):
+                outs.update(jax.block_until_ready(prog(jnp.asarray(X), {nm: jax.tree_util.tree_map(jnp.asarray, P.get(nm, {})) for nm in names})))
+            return jax.tree_util.tree_map(np.asarray, outs)
+
+        outs = parallel_map(run_chunk, parts, workers=workers)
+        return jax.tree_util.tree_map(lambda *a: np.concatenate(a)[:n], *outs)
 
     try:
-        return run(list(kernels)), {}
+        return run_all(_programs(checks_by_name or {}, list(kernels))), {}
     except Exception:
         pass
     results, errors = {}, {}
     for nm in kernels:
         try:
-            results[nm] = run([nm])[nm]
+            results[nm] = run_all([[nm]])[nm]
         except Exception as exc:
             errors[nm] = _first_line(exc)
     return results, errors
@@ -296,7 +352,7 @@ def check(
     outputs: dict[str, dict] = {}
     if n:
         if model.traced:
-            outputs, errors = _run_traced(model, kernels, xs, probes, settings)
+            outputs, errors = _run_traced(model, kernels, xs, probes, settings, {c.name: c for c in selected})
         else:
             outputs, errors, point_faults = _run_eager(model, kernels, xs, probes)
 
