@@ -241,16 +241,7 @@ def test_in_process_run_without_models_filter_and_duplicates(tmp_path):
 
 
 HANGS_AT_IMPORT = "while True:\n    pass\n"
-HANGS_IN_A_FUNCTION = PLANE + """
-calls = []
-def stuck_sample(rng):  # the declaration's one call returns; the check's calls never do
-    import time
-    calls.append(1)
-    while len(calls) > 1:
-        time.sleep(0.5)
-    return rng.standard_normal(2)
-stuck = plane("stuck", sample=stuck_sample)
-"""
+HANGS_IN_A_FUNCTION = ISOLATED["b_partial.py"]  # a model whose sample function never returns during the check
 
 
 def test_without_isolation_a_hanging_file_times_out_and_the_rest_is_checked(tmp_path):
