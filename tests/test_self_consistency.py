@@ -82,12 +82,6 @@ BUILDERS = {
     "sl2-nilpotent": _coadjoint(lambda: LieAlgebra.from_matrices(SL2), [0.0, 1.0, 0.0]),
 }
 
-#: Cases failing on this branch for reasons inside hamcheck/orbits.py (owned elsewhere): every check
-#: passes, but the action check's NaN after a group element leaves the chart makes `passed` False
-#: (issue 11, item 5).
-ORBITS_FIXED_ELSEWHERE = {("u3-regular", 1)} | {("sl2-hyperbolic", seed) for seed in SEEDS}
-
-
 @functools.cache
 def built(case) -> Model:
     return BUILDERS[case]()
@@ -96,10 +90,7 @@ def built(case) -> Model:
 def _params():
     for case in BUILDERS:
         for seed in SEEDS:
-            marks = ()
-            if (case, seed) in ORBITS_FIXED_ELSEWHERE:
-                marks = pytest.mark.xfail(strict=False, reason="fixed on branch trust-consequences")
-            yield pytest.param(case, seed, id=f"{case}-seed{seed}", marks=marks)
+            yield pytest.param(case, seed, id=f"{case}-seed{seed}")
 
 
 @pytest.mark.slow
