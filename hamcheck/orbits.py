@@ -25,6 +25,30 @@ matrix) whose orbit points ``Ad*_{g(y)} lambda`` cover the orbit; then
 for generic orbits of U(n): it covers the orbit up to measure zero and holds
 every torus-fixed point, which integration and localization need.
 
+Which chart is the default
+--------------------------
+The exponential chart is local: it covers a compact orbit many times over
+``R^k`` and its exponential is accurate only for ``|ad_Y| <= 20``, so no
+integral can be taken over it. Where a chart covering the orbit once up to
+measure zero is known, ``coadjoint_orbit`` uses it and declares its domain
+(all of ``R^k``), so ``localization``, ``fixed_points``, ``moment_image`` and
+``reduce`` work on the built model with no extra arguments:
+
+* regular orbits of ``u(n)`` and ``su(n)`` (any basis of anti-Hermitian
+  ``n x n`` matrices spanning them) for prime ``n``: the flag chart
+  :func:`unitary_flag_chart`, composed with the unitary that diagonalises the
+  orbit point, so that every fixed point of the diagonal torus is in the chart;
+* orbits of ``so(3)`` (any basis of real antisymmetric ``3 x 3`` matrices):
+  the flag chart of ``U(2)`` pushed to ``SO(3)`` by the double cover
+  ``R(U)_ab = tr(s_a U s_b U^*) / 2`` (``s_a`` the Pauli matrices), composed
+  with the rotation that takes the orbit point to the third axis, so both
+  fixed points of the rotations about that axis are in the chart.
+
+Elsewhere (singular orbits, other groups, structure constants only) the
+model keeps the exponential chart and records in ``model.construction``
+(an :class:`OrbitChart`) that it does not cover the orbit, and integrals over
+it refuse with one line saying what to pass (``chart=`` and ``domain=``).
+
 Example
 -------
 >>> import numpy as np
@@ -39,6 +63,8 @@ Example
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from ._jax import jax, jnp
@@ -46,7 +72,7 @@ from .algebra import LieAlgebra
 from .errors import ModelError
 from .model import Convention, Model
 
-__all__ = ["coadjoint_orbit", "stabilizer_dimension", "unitary_flag_chart"]
+__all__ = ["OrbitChart", "coadjoint_orbit", "stabilizer_dimension", "unitary_flag_chart"]
 
 #: Relative singular value of ``xi -> ad*_xi lambda`` below which a direction
 #: counts as stabilizing: exact stabilizers give ~1e-16, and genuine directions
@@ -65,6 +91,11 @@ NEWTON_RTOL = 1e-9
 #: Scale of sampled chart points: inside the region where exponential
 #: coordinates are injective for unit-size bases.
 SAMPLE_SCALE = 0.3
+#: Scale of sampled points of a covering (flag) chart: its coordinates are
+#: dimensionless and the orbit's bulk lies at |y| ~ 1 (half of CP^1 is
+#: |z| < 1), so fixed-point searches started there reach every fixed point
+#: in the chart, while |y| stays where the chart is well conditioned.
+COVERING_SAMPLE_SCALE = 1.0
 
 
 def _coad_matrix(C, mu):
@@ -214,6 +245,106 @@ def unitary_flag_chart(n: int):
     return g
 
 
+@dataclass(frozen=True)
+class OrbitChart:
+    """What :func:`coadjoint_orbit` built: the chart's kind and whether it covers the orbit once.
+
+    ``kind`` is ``"exponential"`` (local exponential coordinates), ``"unitary-flag"``,
+    ``"so3-flag"`` or ``"user"``; ``covers_once`` says whether the chart covers the orbit
+    once up to measure zero (so integrals over ``domain`` are integrals over the orbit);
+    ``reason`` says why the chart was chosen.
+    """
+
+    kind: str
+    covers_once: bool
+    point: tuple
+    reason: str
+
+    def __repr__(self) -> str:
+        return f"OrbitChart({self.kind}, covers_once={self.covers_once})"
+
+
+#: Relative size of the anti-Hermitian / antisymmetric part of a basis matrix
+#: below which the basis counts as compact (u(n), su(n), so(3)): exact bases
+#: give 0, round-off in user-built bases ~1e-16.
+FAMILY_RTOL = 1e-12
+
+
+def _trace_form_matrix(algebra):
+    """Point of ``g*`` (components ``<lambda, e_a>``) -> the matrix ``Lambda`` with ``-Re tr(Lambda e_a) = lambda_a``."""
+    B = np.asarray(algebra.basis)
+    G = -np.real(np.einsum("aij,bji->ab", B, B))  # positive definite on a compact algebra
+    return lambda lam: np.einsum("a,aij->ij", np.linalg.solve(G, lam), B)
+
+
+def _compact_family(algebra):
+    """``("unitary", n)`` for u(n)/su(n), ``("so3", 3)`` for so(3), else ``None`` (matrix bases only)."""
+    if not algebra.is_matrix:
+        return None
+    B = np.asarray(algebra.basis)
+    k, n = B.shape[0], B.shape[1]
+    size = max(float(np.max(np.abs(B))), 1e-300)
+    if np.max(np.abs(B + np.conj(np.swapaxes(B, 1, 2)))) > FAMILY_RTOL * size:
+        return None
+    rank = np.linalg.matrix_rank(np.concatenate([B.reshape(k, -1).real, B.reshape(k, -1).imag], axis=1))
+    if rank != k:
+        return None
+    if np.all(np.isreal(B)) and n == 3 and k == 3:
+        return ("so3", 3)
+    traceless = np.max(np.abs(np.einsum("aii->a", B))) <= FAMILY_RTOL * size
+    if k == n * n or (k == n * n - 1 and traceless):
+        return ("unitary", n)
+    return None
+
+
+def _is_prime(n):
+    return n >= 2 and all(n % p for p in range(2, int(n**0.5) + 1))
+
+
+def _pauli_cover(U):
+    """``R(U)_ab = Re tr(s_a U s_b U^*) / 2``: the rotation of ``R^3`` by a unitary ``U`` (SU(2) -> SO(3))."""
+    s = jnp.asarray(np.array([[[0, 1], [1, 0]], [[0, -1j], [1j, 0]], [[1, 0], [0, -1]]], dtype=complex))
+    return 0.5 * jnp.real(jnp.einsum("aij,jk,bkl,li->ab", s, U, s, jnp.conj(U).T))
+
+
+def _covering_chart(algebra, lam, d):
+    """``(g(y), OrbitChart)`` for a chart covering the orbit once, or ``(None, OrbitChart)`` with the reason."""
+    point = tuple(float(v) for v in lam)
+    family = _compact_family(algebra)
+    if family is None:
+        why = ("no covering chart is known for this algebra (only u(n), su(n) for prime n and so(3), declared by "
+               "matrices); the exponential chart is local")
+        return None, OrbitChart("exponential", False, point, why)
+    Lam = _trace_form_matrix(algebra)(lam)
+    if family[0] == "so3":
+        v = np.array([Lam[2, 1], Lam[0, 2], Lam[1, 0]])
+        e3 = v / np.linalg.norm(v)
+        # a rotation K with K e_3 = v / |v| (columns: an orthonormal frame ending in e3)
+        q, _ = np.linalg.qr(np.column_stack([e3, np.eye(3)]))
+        K = np.column_stack([q[:, 1], q[:, 2], q[:, 0]])
+        K = K if np.linalg.det(K) > 0 else K @ np.diag([-1.0, 1.0, 1.0])
+        flag = unitary_flag_chart(2)
+        Kt = jnp.asarray(K.T)
+        return (lambda y: _pauli_cover(flag(y)) @ Kt), OrbitChart(
+            "so3-flag", True, point, "so(3): the U(2) flag chart through the double cover; holds both fixed points "
+            "of the rotations about the orbit point's axis")
+    n = family[1]
+    if d != n * (n - 1):
+        return None, OrbitChart("exponential", False, point,
+                                f"the orbit is singular (dimension {d} < {n * (n - 1)}); the flag chart is for regular "
+                                "orbits, the exponential chart is local")
+    if not _is_prime(n):
+        return None, OrbitChart("exponential", False, point,
+                                f"n = {n} is not prime, so the flag chart may miss torus-fixed points; the "
+                                "exponential chart is local")
+    _, V = np.linalg.eigh(1j * Lam)  # i Lambda = V D V^*: Ad_{V^*} Lambda is diagonal
+    flag = unitary_flag_chart(n)
+    Vh = jnp.asarray(np.conj(V).T)
+    return (lambda y: flag(y) @ Vh), OrbitChart(
+        "unitary-flag", True, point, f"regular orbit of u({n})/su({n}): the flag chart holds every fixed point of "
+        "the diagonal torus")
+
+
 def coadjoint_orbit(
     algebra: LieAlgebra,
     point,
@@ -222,7 +353,7 @@ def coadjoint_orbit(
     chart=None,
     domain=None,
     convention: Convention = Convention(),
-    sample_scale: float = SAMPLE_SCALE,
+    sample_scale: float | None = None,
 ) -> Model:
     """The coadjoint orbit through ``point`` (moment-map components) as a :class:`Model`.
 
@@ -263,13 +394,22 @@ def coadjoint_orbit(
             "is all of g), so its orbit is a single point; pick a point with a smaller stabilizer"
         )
     if chart is None:
-        local = _exponential_chart(C, jnp.asarray(lam), jnp.asarray(mbasis))
+        cover, built = _covering_chart(algebra, lam, d)
+        if cover is not None:
+            sample_scale = COVERING_SAMPLE_SCALE if sample_scale is None else sample_scale
+            local = _group_chart(algebra, jnp.asarray(lam), cover)
+            domain = tuple((-np.inf, np.inf) for _ in range(d)) if domain is None else domain
+        else:
+            local = _exponential_chart(C, jnp.asarray(lam), jnp.asarray(mbasis))
+            built = built if domain is None else OrbitChart("exponential", True, built.point, "domain declared by the caller")
     else:
+        built = OrbitChart("user", True, tuple(float(v) for v in lam), "chart given by the caller")
         if not algebra.is_matrix:
             raise ModelError("chart=g(y) needs group elements; declare the algebra with LieAlgebra.from_matrices")
         if not callable(chart):
             raise ModelError(f"chart must be a callable y -> group element; got {type(chart).__name__}")
         local = _group_chart(algebra, jnp.asarray(lam), chart)
+    sample_scale = SAMPLE_SCALE if sample_scale is None else float(sample_scale)
     s = convention.effective_sign
     flow = convention.flow
     lam_j = jnp.asarray(lam)
@@ -307,4 +447,5 @@ def coadjoint_orbit(
         sample=lambda rng: sample_scale * rng.standard_normal(d),
         convention=convention,
         domain=domain,
+        construction=built,
     )
