@@ -106,6 +106,52 @@ def _validate_domain(domain, dim):
     return tuple((float(lo), float(hi)) for lo, hi in box)
 
 
+def _embedding_size(model) -> int:
+    """Length of ``model.embedding(x)``, from its shape alone (no evaluation when jax traces it)."""
+    if model.traced:
+        return int(jax.eval_shape(model.embedding, jax.ShapeDtypeStruct((model.dim,), jnp.float64)).shape[0])
+    return int(np.asarray(model.embedding(np.asarray(model.sample(np.random.default_rng(0)), dtype=float))).shape[0])
+
+
+def _validate_charts(model, charts) -> tuple:
+    """The other charts of ``model``'s atlas: Models of the same manifold, each with an embedding like its own."""
+    if charts is None:
+        return ()
+    if isinstance(charts, Model) or not isinstance(charts, (tuple, list)):
+        raise ModelError(f"charts must be a tuple of hamcheck.Model (the other charts of the atlas); got {type(charts).__name__}")
+    charts = tuple(charts)
+    if charts and model.embedding is None:
+        raise ModelError(
+            "charts need embedding(x) on the main chart (and on each chart): the map into a space shared by every "
+            "chart, by which a fixed point found in two charts is recognised as one"
+        )
+    C = model.algebra.structure_constants
+    for i, c in enumerate(charts, 1):
+        what = f"charts[{i - 1}]"
+        if not isinstance(c, Model):
+            raise ModelError(f"{what} must be a hamcheck.Model (a chart with its own functions); got {type(c).__name__}")
+        if c.charts:
+            raise ModelError(f"{what} ({c.name!r}) declares charts of its own; declare the whole atlas on the main chart")
+        problems = []
+        if c.dim != model.dim:
+            problems.append(f"dim {c.dim} (expected {model.dim})")
+        if c.algebra.names != model.algebra.names or c.algebra.structure_constants.shape != C.shape or not np.allclose(
+            c.algebra.structure_constants, C, rtol=1e-12, atol=1e-12 * max(1.0, float(np.abs(C).max(initial=0)))
+        ):
+            problems.append(f"algebra {list(c.algebra.names)} (expected the main chart's {list(model.algebra.names)}, same brackets)")
+        if c.convention != model.convention:
+            problems.append(f"convention {c.convention} (expected {model.convention})")
+        if c.derivatives != model.derivatives:
+            problems.append(f"derivatives {c.derivatives!r} (expected {model.derivatives!r})")
+        if c.embedding is None:
+            problems.append("no embedding(x)")
+        elif not problems and _embedding_size(c) != _embedding_size(model):
+            problems.append(f"embedding of length {_embedding_size(c)} (expected {_embedding_size(model)}, the main chart's)")
+        if problems:
+            raise ModelError(f"{what} ({c.name!r}) is not a chart of the same space: " + "; ".join(problems))
+    return charts
+
+
 def _shape(value) -> tuple:
     return tuple(np.shape(value))
 
@@ -146,6 +192,16 @@ class Model:
     construction : frozen record, optional
         What a builder knows about the model it built (the base point and
         grid of a truncated orbit chart, say); ``None`` for hand-made models.
+    charts : tuple of Model, optional
+        The other charts of an atlas: each a Model of the same manifold (same
+        dim, algebra and convention) with its own form, moment, vector fields
+        or action, sample and domain, in its own coordinates. The consequences
+        that need every fixed point (:func:`~hamcheck.fixed_points` and what
+        sums over them) search every chart. Needs ``embedding`` on every chart.
+    embedding : callable ``x -> (N,)``, optional
+        The chart's map into a space ``R^N`` shared by every chart of the atlas
+        (homogeneous coordinates as a projector, a sphere in ``R^3``): a point
+        found in two charts is one point when its images agree.
 
     A declared model is immutable: setting an attribute raises
     :class:`~hamcheck.FrozenModelError`; :meth:`replace` returns a copy with
@@ -171,6 +227,8 @@ class Model:
         chart_labels=None,
         source=None,
         construction=None,
+        charts=(),
+        embedding=None,
     ):
         if not isinstance(name, str) or not name:
             raise ModelError(f"name must be a non-empty string; got {name!r}")
@@ -190,6 +248,7 @@ class Model:
             ("vector_fields", vector_fields, False),
             ("action", action, False),
             ("sample", sample, False),
+            ("embedding", embedding, False),
         ):
             if (required or fn is not None) and not callable(fn):
                 raise ModelError(f"{label} must be a callable; got {type(fn).__name__}")
@@ -224,7 +283,9 @@ class Model:
         set_("domain", _validate_domain(domain, dim_))
         set_("chart_labels", chart_labels)
         set_("construction", construction)
+        set_("embedding", embedding)
         self._validate()
+        set_("charts", _validate_charts(self, charts))
         set_("_frozen", True)
 
     def __setattr__(self, key, value):
@@ -233,13 +294,14 @@ class Model:
     def __delattr__(self, key):
         raise FrozenModelError(f"cannot delete Model.{key}: {self._FROZEN_HINT}")
 
-    _REPLACEABLE = ("name", "source", "chart_labels", "construction")
+    _REPLACEABLE = ("name", "source", "chart_labels", "construction", "charts")
 
     def replace(self, **changes) -> "Model":
-        """A copy with other metadata (``name``, ``source``, ``chart_labels``, ``construction``).
+        """A copy with other metadata (``name``, ``source``, ``chart_labels``, ``construction``, ``charts``).
 
-        The functions are shared, so the copy is not validated again. To change a
-        function, declare a new Model.
+        The functions are shared, so the copy is not validated again (new
+        ``charts`` are checked against it). To change a function, declare a new
+        Model. ``model.replace(charts=())`` keeps the main chart alone.
         """
         bad = sorted(set(changes) - set(self._REPLACEABLE))
         if bad:
@@ -253,6 +315,8 @@ class Model:
             changes["chart_labels"] = tuple(changes["chart_labels"])
             if len(changes["chart_labels"]) != self.dim:
                 raise ModelError(f"chart_labels has {len(changes['chart_labels'])} entries; expected {self.dim}")
+        if "charts" in changes:
+            changes["charts"] = _validate_charts(self, changes["charts"])
         new = object.__new__(Model)
         for key, value in self.__dict__.items():
             object.__setattr__(new, key, changes.get(key, value))
@@ -262,6 +326,11 @@ class Model:
     @property
     def has_action(self) -> bool:
         return self.action is not None
+
+    @property
+    def atlas(self) -> tuple:
+        """The main chart (this model) followed by ``charts``: index ``k`` is the ``chart`` of a fixed point."""
+        return (self,) + self.charts
 
     @property
     def traced(self) -> bool:
@@ -275,6 +344,8 @@ class Model:
             parts.append(f"sign={self.convention.sign}, flow={self.convention.flow}")
         if not self.traced:
             parts.append("finite differences")
+        if self.charts:
+            parts.append(f"{1 + len(self.charts)} charts")
         return f"Model({', '.join(parts)})"
 
     # --------------------------------------------- functions the checks call
@@ -341,7 +412,8 @@ class Model:
             expected["vector_fields"] = ((k, d), lambda x: self.vector_fields(x), f"(algebra dim {k}, dim {d})")
         if self.action is not None:
             expected["action"] = ((d,), lambda x: self.action(self._eager_group(ident), x), f"for dim={d}")
-        call = {"form": "form(x)", "moment": "moment(x)", "vector_fields": "vector_fields(x)", "action": "action(g, x)"}
+        call = {"form": "form(x)", "moment": "moment(x)", "vector_fields": "vector_fields(x)", "action": "action(g, x)",
+                "embedding": "embedding(x)"}
         for label, (shape, fn, why) in expected.items():
             try:
                 value = fn(x0)
@@ -353,6 +425,8 @@ class Model:
                 raise ModelError(f"{call[label]} returned shape {_shape(value)}; expected {shape} {why}")
             if np.iscomplexobj(np.asarray(value)) and np.any(np.imag(np.asarray(value)) != 0):
                 raise ModelError(f"{call[label]} returned complex values; expected a real array of shape {shape}")
+        if self.embedding is not None:
+            self._check_embedding(x0, call["embedding"])
         if self.traced:
             self._check_traceable(x0, ident, call)
         # derived vector fields exercise exp and the action's derivative
@@ -388,16 +462,33 @@ class Model:
                 out["vector_fields"] = self.vector_fields(x)
             if self.action is not None:
                 out["action"] = self.action(jnp.asarray(ident), x)
+            if self.embedding is not None:
+                out["embedding"] = self.embedding(x)
             return {key: jnp.asarray(v) for key, v in out.items()}
 
         try:
             got = jax.jit(values)(jnp.asarray(x0))
         except Exception:
             return False
+        if self.embedding is not None:
+            e = got.get("embedding")
+            if e is None or e.ndim != 1 or e.shape[0] < 1 or jnp.iscomplexobj(e) or not bool(jnp.all(jnp.isfinite(e))):
+                return False
         return all(
             key in got and tuple(got[key].shape) == shape and not jnp.iscomplexobj(got[key])
             for key, shape in expected.items()
         )
+
+    def _check_embedding(self, x0, call) -> None:
+        try:
+            e = np.asarray(self.embedding(jnp.asarray(x0) if self.traced else x0))
+        except Exception as exc:
+            raise ModelError(f"{call} raised {type(exc).__name__}: {exc} (at the sample point x = {np.array2string(x0, precision=4)})") from None
+        if e.ndim != 1 or e.shape[0] < 1 or np.iscomplexobj(e) or not np.all(np.isfinite(e)):
+            raise ModelError(
+                f"{call} returned shape {e.shape} ({e.dtype}); expected a finite real vector (N,): the chart's point "
+                "in a space shared by every chart of the atlas"
+            )
 
     def _eager_group(self, ident):
         return jnp.asarray(ident) if self.traced else ident
@@ -410,6 +501,8 @@ class Model:
         if self.action is not None:
             g = jnp.asarray(ident)
             fns["action"] = lambda x: self.action(g, x)
+        if self.embedding is not None:
+            fns["embedding"] = self.embedding
         for label, fn in fns.items():
             try:
                 jax.eval_shape(fn, spec)

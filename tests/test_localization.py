@@ -53,9 +53,11 @@ def test_cp2_small_s_against_mpmath(cp2):
 
 
 def test_cp2_volume(cp2):
-    loc = hamcheck.localization(cp2, XI, 0.0, rtol=1e-6, starts=8)
+    loc = hamcheck.localization(cp2, XI, 0.0, rtol=1e-6, starts=16)
     assert loc.integral == pytest.approx(math.pi**2 / 2, rel=1e-6)  # docs/references.md row F3: pi^n / n!
-    assert math.isnan(loc.fixed_point_sum)
+    # at s = 0 the fixed-point side is the order-n identity (2 pi)^n / n! sum_p <mu(p), xi>^n / e_p: the volume
+    assert loc.fixed_point_sum == pytest.approx(math.pi**2 / 2, rel=1e-12) and loc.agrees
+    assert "the volume" in loc.note
 
 
 def test_oscillator_product_formula():

@@ -127,7 +127,7 @@ def test_replace_changes_metadata_only():
     r = m.replace(name="renamed", source="elsewhere.py")
     assert (r.name, r.source, r.chart_labels, m.name) == ("renamed", "elsewhere.py", ("x", "y"), "plane")
     assert r.form is m.form and r.dim == m.dim
-    with pytest.raises(ModelError, match="changes only name, source, chart_labels, construction; got form"):
+    with pytest.raises(ModelError, match="changes only name, source, chart_labels, construction, charts; got form"):
         m.replace(form=lambda x: x)
     with pytest.raises(ModelError, match="chart_labels has 3 entries; expected one per coordinate"):
         plane(chart_labels=["a", "b", "c"])

@@ -106,4 +106,7 @@ def chart_scale(model: Model, n: int = 256, seed: int = 12345) -> np.ndarray:
 
 
 def fmt(v, digits=4) -> str:
-    return "(" + ", ".join(f"{float(x):.{digits}g}" for x in np.atleast_1d(v)) + ")"
+    """A vector for a repr: entries that are zero to round-off of its largest entry print as 0 (``diagnose.vec``)."""
+    from ..diagnose import vec
+
+    return vec(v, digits)

@@ -11,6 +11,8 @@ the holomorphic Lefschetz fixed-point formula
 Laurent polynomial (each factor as a series in one generic direction; the
 infinite tails cancel), and compared with the lattice points of the moment
 polytope (the convex hull of the fixed-point images). Both are exact integers.
+The fixed points come from every chart of the atlas and must pass the
+identities of a compact space; a chart missing some is refused in one line.
 
 Example
 -------
@@ -27,10 +29,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..diagnose import vec
 from ..errors import UsageError
 from ._common import require_model
-from ._torus import generic_element, torus_basis, weight_vectors
-from .fixed_points import fixed_points
+from ._torus import torus_basis, weight_vectors
+from .moment_image import hull_of_fixed_images, torus_fixed_points
 
 __all__ = ["LatticeCount", "lattice_count", "lefschetz_character"]
 
@@ -67,7 +70,7 @@ def _integral(values, what):
     r = np.round(values)
     if np.max(np.abs(values - r), initial=0) > INTEGRAL_ATOL:
         raise UsageError(
-            f"{what} are not integers ({np.array2string(np.asarray(values), precision=6)}): the count needs a torus "
+            f"{what} are not integers ({vec(np.ravel(values), 6)}): the count needs a torus "
             "with integral weights and a moment map with integral values at the fixed points (scale omega, or shift "
             "mu by a constant)"
         )
@@ -110,7 +113,7 @@ def lefschetz_character(data) -> Counter:
     return Counter({k: v for k, v in total.items() if v != 0})
 
 
-def _polytope_points(vertices):
+def _polytope_points(vertices, model_name="model"):
     V = np.asarray(vertices, dtype=float)
     m = V.shape[1]
     lo, hi = np.floor(V.min(axis=0)).astype(int), np.ceil(V.max(axis=0)).astype(int)
@@ -118,29 +121,28 @@ def _polytope_points(vertices):
     if m == 1:
         keep = (grid[:, 0] >= V.min() - 1e-9) & (grid[:, 0] <= V.max() + 1e-9)
     else:
-        from scipy.spatial import ConvexHull
-
-        eq = ConvexHull(V).equations
+        eq = hull_of_fixed_images(V, "lattice_count", model_name).equations
         keep = np.max(grid @ eq[:, :-1].T + eq[:, -1], axis=1) <= 1e-9
     return tuple(sorted(tuple(int(v) for v in p) for p in grid[keep]))
 
 
 def lattice_count(model, torus, *, starts: int = 64, seed: int = 0) -> LatticeCount:
-    """Count lattice points of the moment polytope and the Lefschetz index; both exact integers."""
+    """Count lattice points of the moment polytope and the Lefschetz index; both exact integers.
+
+    The fixed points come from every chart of the atlas and must be complete
+    (one line otherwise: fixed points missing from the chart).
+    """
     require_model(model, "lattice_count")
     B = torus_basis(model, torus, "torus")
-    xi = generic_element(B)
-    fps = fixed_points(model, xi, starts=starts, seed=seed)
-    if len(fps) == 0 or not fps.isolated:
-        raise UsageError(f"the torus has no isolated fixed points in the chart of {model.name!r}")
+    xi, fps = torus_fixed_points(model, B, "lattice_count", starts, seed)
     eps = model.convention.effective_sign
     data = []
     for p in fps:
-        lam = _integral(np.asarray(model.moment_at(p.point)) @ B.T, "the moment values at the fixed points")
-        W, _ = weight_vectors(model, p.point, B, xi)
+        lam = _integral(np.asarray(p.moment) @ B.T, "the moment values at the fixed points")
+        W, _ = weight_vectors(model.atlas[p.chart], p.point, B, xi)
         data.append((lam, [_integral(eps * w, "the weights at the fixed points") for w in W]))
     char = lefschetz_character(data)
-    pts = _polytope_points([lam for lam, _ in data])
+    pts = _polytope_points([lam for lam, _ in data], model.name)
     names = tuple(str(i) for i in range(B.shape[0]))
     return LatticeCount(
         model.name, names, len(pts), int(sum(char.values())), dict(char), pts, tuple(tuple(int(v) for v in l) for l, _ in data)

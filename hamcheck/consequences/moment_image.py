@@ -3,7 +3,9 @@
 For a torus ``T`` (commuting basis elements) the image of the moment map is
 sampled with Liouville weights (scrambled Sobol points through the chart's
 domain, :func:`~hamcheck.consequences.integration.weighted_samples`), compared
-with the convex hull of the images of the fixed points (``scipy.spatial``),
+with the convex hull of the images of the fixed points (``scipy.spatial``;
+found in every chart of the atlas, and refused in one line when they fail the
+identities of a compact space: fixed points missing from the chart),
 and the DH density of ``<mu, xi>`` for a generic ``xi`` in ``t`` is compared,
 as a weighted histogram, with the piecewise polynomial predicted by the
 fixed points: ``f(a) = (2 pi)^n sum_p (<mu(p), xi> - a)_+^(n-1) / ((n-1)! prod_k w_k(p))``.
@@ -22,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import UsageError
+from ..errors import ModelError, UsageError
 from ._common import require_model
 from ._torus import generic_element, torus_basis
 from .fixed_points import FixedPoints, fixed_points
@@ -76,12 +78,14 @@ class MomentImage:
     dh_predicted: np.ndarray
     dh_error: float
     fixed_points: FixedPoints
+    note: str = ""
 
     def __repr__(self) -> str:
+        note = f"; {self.note}" if self.note else ""
         return (
             f"MomentImage({self.model!r}, torus={list(self.torus)}: {len(self.fixed_images)} fixed-point images, "
             f"inside={self.inside_fraction:.4f}, fill={self.fill:.3f}, convex={self.convex}, "
-            f"DH density error={self.dh_error:.1e})"
+            f"DH density error={self.dh_error:.1e}{note})"
         )
 
     def plot(self, path) -> str:
@@ -132,36 +136,92 @@ class MomentImage:
         return str(path)
 
 
+def torus_fixed_points(model, B, who, starts, seed):
+    """The fixed points of the torus spanned by the rows of ``B`` (via a generic element), all of them or an error.
+
+    Raises :class:`~hamcheck.ModelError` in one line when the fixed points found
+    fail the identities of a compact space (fixed points missing from the
+    chart, probably at infinity) and :class:`~hamcheck.UsageError` when they are
+    not isolated.
+    """
+    xi = generic_element(B)
+    fps = fixed_points(model, xi, starts=starts, seed=seed)
+    if len(fps) and not fps.isolated:
+        raise UsageError(
+            f"{who}: the torus has fixed points in {model.name!r} that are not isolated; it needs isolated fixed points"
+        )
+    if fps.completeness.complete is False:
+        raise ModelError(f"{who}({model.name!r}) needs every fixed point: {fps.completeness.note}")
+    return xi, fps
+
+
+def affine_rank(P) -> int:
+    """Dimension of the affine span of the rows of ``P`` (relative rank cut :data:`HULL_RTOL`)."""
+    P = np.asarray(P, dtype=float)
+    if len(P) < 2:
+        return 0
+    D = P[1:] - P[0]
+    sv = np.linalg.svd(D, compute_uv=False)
+    return int(np.sum(sv > HULL_RTOL * max(float(sv[0]), 1e-300)))
+
+
+def hull_of_fixed_images(fix, who, model_name):
+    """``scipy.spatial.ConvexHull`` of the fixed-point images, or one line on why there is no full-dimensional hull."""
+    from scipy.spatial import ConvexHull
+
+    m = fix.shape[1]
+    r = affine_rank(fix)
+    message = (
+        f"{who}({model_name!r}): the moment image found from the fixed points is degenerate ({len(fix)} points "
+        f"spanning {r} of the {m} dimensions of t*); declare the charts holding the other fixed points "
+        "(Model(charts=..., embedding=...)), or give torus elements that act effectively"
+    )
+    if r < m:
+        raise ModelError(message)
+    try:
+        return ConvexHull(fix)
+    except Exception as exc:  # qhull's own errors (precision, flat input): say what it means here
+        raise ModelError(f"{message} [qhull: {str(exc).strip().splitlines()[0]}]") from None
+
+
 def moment_image(model, torus, *, samples: int = 2**14, starts: int = 64, seed: int = 0) -> MomentImage:
-    """The image of the torus moment map vs the hull of the fixed-point images, and the DH density."""
+    """The image of the torus moment map vs the hull of the fixed-point images, and the DH density.
+
+    The fixed points come from every chart of the atlas and must be complete
+    (see :class:`~hamcheck.consequences.fixed_points.Completeness`); the image is
+    sampled on the main chart.
+    """
     from scipy.spatial import ConvexHull
 
     require_model(model, "moment_image")
     B = torus_basis(model, torus, "torus")
     m = B.shape[0]
     n = model.dim // 2
-    xi = generic_element(B)
-    fps = fixed_points(model, xi, starts=starts, seed=seed)
-    if not fps.isolated or len(fps) == 0:
-        raise UsageError(f"the torus {torus} has no isolated fixed points in the chart of {model.name!r}")
+    xi, fps = torus_fixed_points(model, B, "moment_image", starts, seed)
+    note = "" if fps.completeness.complete else "fixed points " + fps.completeness.note
     _, w, mu = weighted_samples(model, samples, seed)
     image = mu @ B.T
-    fix = np.stack([np.asarray(model.moment_at(p.point)) for p in fps]) @ B.T
-    diam = max(float(np.max(np.ptp(fix, axis=0))) if len(fix) > 1 else 0.0, 1e-300)
+    fix = np.array([p.moment for p in fps]) @ B.T
+    diam = max(float(np.max(np.ptp(fix, axis=0))), 1e-300)
     if m == 1:
         lo, hi = fix.min(), fix.max()
         inside = np.mean((image[:, 0] >= lo - HULL_RTOL * diam) & (image[:, 0] <= hi + HULL_RTOL * diam))
         fill = float(np.ptp(image[:, 0]) / diam)
     else:
+        hull = hull_of_fixed_images(fix, "moment_image", model.name)
+        viol = image @ hull.equations[:, :-1].T + hull.equations[:, -1]
+        inside = np.mean(np.max(viol, axis=1) <= HULL_RTOL * diam)
         try:
-            hull = ConvexHull(fix)
-            viol = image @ hull.equations[:, :-1].T + hull.equations[:, -1]
-            inside = np.mean(np.max(viol, axis=1) <= HULL_RTOL * diam)
             fill = float(ConvexHull(image).volume / hull.volume)
-        except Exception:  # degenerate hull (fewer than m+1 independent fixed images)
-            inside, fill = float("nan"), float("nan")
+        except Exception:  # the sampled image is flat: it fills none of the hull
+            fill = 0.0
     values = mu @ xi
     lo, hi = min(p.value for p in fps), max(p.value for p in fps)
+    if not hi > lo:
+        raise ModelError(
+            f"moment_image({model.name!r}): every fixed point has <mu, xi> = {lo:.6g} for the generic xi, so the DH "
+            "density has no range; declare the charts holding the other fixed points"
+        )
     edges = np.linspace(lo, hi, DH_BINS + 1)
     hist, _ = np.histogram(values, bins=edges, weights=w)
     hist = hist / np.diff(edges)
@@ -170,5 +230,5 @@ def moment_image(model, torus, *, samples: int = 2**14, starts: int = 64, seed: 
     convex = bool(inside >= 1.0 and fill >= FILL_THRESHOLD)
     return MomentImage(
         model.name, tuple(model.algebra.names[int(np.argmax(np.abs(b)))] if np.count_nonzero(b) == 1 else str(tuple(b)) for b in B),
-        image, w, fix, float(inside), fill, convex, xi, edges, hist, pred, err, fps,
+        image, w, fix, float(inside), fill, convex, xi, edges, hist, pred, err, fps, note,
     )
