@@ -1,0 +1,89 @@
+"""Products of spheres with the diagonal SO(3): reduced at 0 they are polygon spaces.
+
+Sphere i is the SO(3) coadjoint orbit of radius r_i (KKS form, volume 4 pi r_i;
+docs/references.md row F2b), in Archimedes' cylindrical coordinates
+(phi_i, z_i) in (-pi, pi) x (-r_i, r_i): p_i = (s cos phi_i, s sin phi_i, z_i)
+with s = sqrt(r_i^2 - z_i^2). The chart misses only a meridian and the poles
+(measure zero), and the form is Darboux there: omega = sum_i dphi_i ^ dz_i
+(iota of the rotation field d/dphi_i gives dz_i, the third moment component).
+SO(3) rotates every sphere, X_xi(p_i) = xi x p_i; the moment map is
+mu = sum_i p_i. The level set mu = 0 is the closed polygons with side lengths
+r_i, and mu^{-1}(0)/SO(3) is the polygon space of Kapovich and Millson
+(docs/references.md row F7b): ``hamcheck.reduce(build(r), [0, 0, 0])``.
+
+Example
+-------
+>>> quad = build([1.0, 1.4, 0.8, 1.1])
+>>> hamcheck.reduce(quad, [0.0, 0.0, 0.0]).volume       # doctest: +SKIP
+9.42477...                                               # 3 pi
+"""
+
+import math
+
+import jax.numpy as jnp
+import numpy as np
+
+import hamcheck
+
+SO3 = hamcheck.LieAlgebra.from_matrices(
+    [
+        np.array([[0.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0, 1.0, 0.0]]),
+        np.array([[0.0, 0.0, 1.0], [0.0, 0.0, 0.0], [-1.0, 0.0, 0.0]]),
+        np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 0.0]]),
+    ],
+    names=["L1", "L2", "L3"],
+)
+
+_DARBOUX = np.array([[0.0, 1.0], [-1.0, 0.0]])  # coordinates (phi, z): omega = dphi ^ dz
+
+
+def build(radii, name=None, algebra=SO3, represent=None):
+    """The product of spheres of the given radii with the diagonal rotation action.
+
+    ``algebra`` and ``represent`` (a function taking a group element of
+    ``algebra`` to its 3 x 3 rotation) let the same space be declared with
+    another group acting through SO(3), e.g. SU(2) by the adjoint action.
+    """
+    r = np.asarray(radii, dtype=float)
+    if r.ndim != 1 or r.size < 2 or not np.all(r > 0):
+        raise hamcheck.ModelError(f"radii must be two or more positive side lengths; got {radii!r}")
+    n = r.size
+    rot = represent if represent is not None else (lambda g: g)
+
+    def points(x):
+        phi, z = x[0::2], x[1::2]
+        s = jnp.sqrt(jnp.asarray(r) ** 2 - z ** 2)
+        return jnp.stack([s * jnp.cos(phi), s * jnp.sin(phi), z], axis=1)  # (n, 3)
+
+    def moment(x):
+        return jnp.sum(points(x), axis=0)
+
+    def action(g, x):
+        q = points(x) @ rot(g).T
+        return jnp.stack([jnp.arctan2(q[:, 1], q[:, 0]), q[:, 2]], axis=1).reshape(-1)
+
+    def sample(rng):
+        # Liouville-uniform (Archimedes) away from the seam phi = +-pi and the poles: the flow check
+        # follows orbits for |t xi| = 0.05, which must not cross the seam, where the chart jumps by 2 pi
+        # (near a pole phi turns fast). Integrals use the whole declared domain, not these samples.
+        return np.stack([rng.uniform(-0.9 * math.pi, 0.9 * math.pi, n), rng.uniform(-0.9 * r, 0.9 * r)],
+                        axis=1).reshape(-1)
+
+    omega = np.kron(np.eye(n), _DARBOUX)
+    domain = [b for ri in r for b in ((-math.pi, math.pi), (-ri, ri))]
+    labels = [f"{c}{i + 1}" for i in range(n) for c in ("phi", "z")]
+    return hamcheck.Model(
+        name or "polygons(" + ", ".join(f"{v:g}" for v in r) + ")",
+        2 * n,
+        form=lambda x: jnp.asarray(omega),
+        algebra=algebra,
+        moment=moment,
+        action=action,
+        sample=sample,
+        domain=domain,
+        chart_labels=labels,
+    )
+
+
+# the quadrilateral space of side lengths (1, 1.4, 0.8, 1.1): a sphere of volume 3 pi (docs/references.md row F7b)
+quadrilateral = build([1.0, 1.4, 0.8, 1.1], name="quadrilateral")
