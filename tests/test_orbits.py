@@ -168,3 +168,5 @@ def test_orbits_without_a_covering_chart_say_so():
     m = coadjoint_orbit(alg, components(alg, np.diag([0.5, 0.5, -1.0])))
     assert m.dim == 4 and m.construction.kind == "exponential" and not m.construction.covers_once
     assert "singular" in m.construction.reason and m.domain is None
+    with pytest.raises(ModelError, match="do not cover the space once"):
+        hamcheck.localization(m, np.array([0.5, -0.2, -0.4] + [0.0] * 6), 1.0, starts=4)

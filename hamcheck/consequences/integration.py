@@ -158,6 +158,13 @@ class Integral:
 
 def integrate(model, xi, s, *, rtol=1e-8, samples=2**14, seed=0) -> Integral:
     """``int exp(s <mu, xi>) omega^n/n!`` over the chart's domain, with an error estimate."""
+    built = model.construction
+    if getattr(built, "covers_once", True) is False:
+        # a builder that knows its chart is local (hamcheck.orbits.OrbitChart) says so: no integral over it
+        raise ModelError(
+            f"{model.name!r} is charted by {getattr(built, 'kind', 'a local')} coordinates that do not cover the space "
+            f"once ({getattr(built, 'reason', 'a local chart')}); pass a covering chart and its domain (chart=, domain=)"
+        )
     d = model.dim
     _, label = cube_map(model)
     xi = np.asarray(xi, dtype=float)
