@@ -131,37 +131,6 @@ def test_default_chart_of_a_compact_orbit_covers_it_once():
     assert vol.integral == pytest.approx(4 * math.pi * math.sqrt(0.3**2 + 0.5**2 + 1.2**2), rel=1e-9)
 
 
-def _hciz(a, b, t):
-    # docs/references.md row F4 (Harish-Chandra 1957; Itzykson-Zuber 1980): the closed form, evaluated by mpmath
-    import mpmath
-
-    mpmath.mp.dps = 40
-    n = len(a)
-    det = mpmath.det(mpmath.matrix([[mpmath.e ** (t * ai * bj) for bj in b] for ai in a]))
-    vd = lambda v: mpmath.fprod(v[i] - v[j] for i in range(n) for j in range(i + 1, n))  # noqa: E731
-    pref = mpmath.fprod(mpmath.factorial(p) for p in range(1, n))
-    return float(pref * det / (t ** (n * (n - 1) // 2) * vd(a) * vd(b)))
-
-
-@pytest.mark.slow
-def test_u3_orbit_localization_is_volume_times_hciz():
-    # docs/references.md rows F4b (orbit volume, Macdonald 1980) and F4 (HCIZ): on the orbit through diag(b) the
-    # localization integral of exp(t <mu, xi>) with xi = -i diag(a) is vol * HCIZ(a, b, t)
-    b, a, t = (1.1, 0.3, -0.6), (0.5, -0.2, -0.4), 1.0
-    alg = un(3)
-    m = coadjoint_orbit(alg, components(alg, np.diag(b)))  # no chart argument: the flag chart by default
-    assert m.construction.kind == "unitary-flag"
-    xi = np.array([-a[0], -a[1], -a[2]] + [0.0] * 6)
-    vol = (2 * math.pi) ** 3 * abs((b[0] - b[1]) * (b[0] - b[2]) * (b[1] - b[2])) / 2
-    expected = vol * _hciz(a, b, t)
-    loc = hamcheck.localization(m, xi, t, starts=32)
-    assert len(loc.fixed_points) == 6  # the Weyl group orbit of diag(b)
-    assert loc.fixed_point_sum == pytest.approx(expected, rel=1e-10)
-    # six-dimensional: quasi-Monte Carlo, whose stated error must cover the difference
-    assert abs(loc.integral - expected) <= 3 * loc.error + 1e-12 * expected
-    assert loc.error < 1e-2 * expected
-
-
 def test_orbits_without_a_covering_chart_say_so():
     # a singular u(3) orbit keeps the local exponential chart and records that it does not cover the orbit
     alg = un(3)
