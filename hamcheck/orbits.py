@@ -270,11 +270,11 @@ class OrbitChart:
 FAMILY_RTOL = 1e-12
 
 
-def _trace_form_matrix(algebra):
-    """Point of ``g*`` (components ``<lambda, e_a>``) -> the matrix ``Lambda`` with ``-Re tr(Lambda e_a) = lambda_a``."""
+def _trace_form_matrix(algebra, lam):
+    """The matrix ``Lambda`` of ``g`` with ``-Re tr(Lambda e_a) = lambda_a`` (the point of ``g*`` as a matrix)."""
     B = np.asarray(algebra.basis)
     G = -np.real(np.einsum("aij,bji->ab", B, B))  # positive definite on a compact algebra
-    return lambda lam: np.einsum("a,aij->ij", np.linalg.solve(G, lam), B)
+    return np.einsum("a,aij->ij", np.linalg.solve(G, lam), B)
 
 
 def _compact_family(algebra):
@@ -315,11 +315,12 @@ def _covering_chart(algebra, lam, d):
         why = ("no covering chart is known for this algebra (only u(n), su(n) for prime n and so(3), declared by "
                "matrices); the exponential chart is local")
         return None, OrbitChart("exponential", False, point, why)
-    Lam = _trace_form_matrix(algebra)(lam)
+    Lam = _trace_form_matrix(algebra, lam)
     if family[0] == "so3":
         v = np.array([Lam[2, 1], Lam[0, 2], Lam[1, 0]])
         e3 = v / np.linalg.norm(v)
-        # a rotation K with K e_3 = v / |v| (columns: an orthonormal frame ending in e3)
+        # a rotation K with K e_3 = +-v / |v| (QR fixes the frame only up to sign; either sign puts the
+        # point on the third axis, whose two fixed points are both in the flag chart)
         q, _ = np.linalg.qr(np.column_stack([e3, np.eye(3)]))
         K = np.column_stack([q[:, 1], q[:, 2], q[:, 0]])
         K = K if np.linalg.det(K) > 0 else K @ np.diag([-1.0, 1.0, 1.0])
