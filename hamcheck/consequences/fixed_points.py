@@ -307,8 +307,14 @@ def _search(model, xi, starts, rng, max_iterations):
     if not np.isfinite(typical) or typical == 0.0:
         typical = 1.0
     dom = np.asarray(model.domain) if model.domain is not None else None
-    fun = lambda x: np.asarray(res(jnp.asarray(x), xi_j))  # noqa: E731
-    jac = lambda x: np.asarray(lin(jnp.asarray(x), xi_j))  # noqa: E731
+    def finite(a):
+        # a step that leaves the chart: stop this start here (LAPACK would print warnings on NaN input)
+        if not np.all(np.isfinite(a)):
+            raise FloatingPointError("left the chart")
+        return a
+
+    fun = lambda x: finite(np.asarray(res(jnp.asarray(x), xi_j)))  # noqa: E731
+    jac = lambda x: finite(np.asarray(lin(jnp.asarray(x), xi_j)))  # noqa: E731
     found = []
     converged = 0
     for x0 in x0s:
@@ -322,9 +328,12 @@ def _search(model, xi, starts, rng, max_iterations):
                 break
             try:
                 x = x - np.linalg.lstsq(jac(x), fun(x), rcond=None)[0]
-            except np.linalg.LinAlgError:
+            except (np.linalg.LinAlgError, FloatingPointError):
                 break
-        r = fun(x) if np.all(np.isfinite(x)) else np.array([np.inf])
+        try:
+            r = fun(x) if np.all(np.isfinite(x)) else np.array([np.inf])
+        except FloatingPointError:
+            continue
         if not np.all(np.isfinite(r)) or np.max(np.abs(r)) > ZERO_RTOL * typical:
             continue
         if dom is not None and (np.any(x <= dom[:, 0]) or np.any(x >= dom[:, 1])):

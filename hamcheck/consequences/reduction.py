@@ -10,7 +10,10 @@ stabilizer of the level in ``h``). The reduced dimension is
 DH density of ``mu_h`` at the level divided by the volume of ``H`` in the
 basis ``h_j`` (computed for tori with integral weights, else ``group_volume``):
 exact from the fixed points for a circle, else a kernel estimate with
-Richardson extrapolation over scrambled Sobol samples.
+Richardson extrapolation over scrambled Sobol samples. For a nonabelian ``H``
+of rank one (``su(2)``, ``so(3)``) at ``0`` the volume comes from the DH
+density of a maximal torus (:mod:`._nonabelian`), estimated twice: from the
+torus fixed points and from Liouville samples (``volume_estimates``).
 
 Example
 -------
@@ -31,6 +34,7 @@ from ..errors import UsageError
 from ._common import compiled, require_model, subalgebra_basis
 from .fixed_points import fixed_points
 from .integration import weighted_samples
+from ._nonabelian import rank_one_volumes
 from .moment_image import dh_density
 
 __all__ = ["Reduction", "reduce", "torus_volume"]
@@ -65,6 +69,8 @@ class Reduction:
     worst_regularity: float
     worst_freeness: float
     worst_kernel: float
+    #: Every estimate of the volume made (best first); ``volume`` is the first.
+    volume_estimates: tuple = ()
 
     def __repr__(self) -> str:
         vol = "volume not computed" if self.volume is None else f"volume={self.volume:.10g} +- {self.volume_error:.1e}"
@@ -184,7 +190,13 @@ def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, g
     kernel_ok = bool(max(kern) < 1e-8)
     dim = model.dim - m - k_lam
     volume, err, how = None, None, "not computed: the level is not fixed by H (H_level != H)"
-    if k_lam == m and regular and locally_free:
+    estimates = ()
+    if k_lam == m and regular and locally_free and np.any(c):
+        estimates, how = rank_one_volumes(model, B, c, lam, seed=seed, samples=volume_samples, group_volume=group_volume)
+        if estimates:
+            volume, err = estimates[0].value, estimates[0].error
+            how = f"{estimates[0].method}; {how}"
+    elif k_lam == m and regular and locally_free:
         vol_h = group_volume if group_volume is not None else torus_volume(model.algebra, B) if not np.any(c) else None
         if vol_h is None:
             how = "not computed: pass group_volume (volume of H in the basis of the subalgebra)"
@@ -193,7 +205,7 @@ def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, g
             volume, err = f / vol_h, ferr / vol_h
     return Reduction(
         model.name, tuple(float(v) for v in lam), len(pts), regular, locally_free, kernel_ok, dim, volume, err, how,
-        float(min(reg)), float(min(free)), float(max(kern)),
+        float(min(reg)), float(min(free)), float(max(kern)), tuple(estimates),
     )
 
 
