@@ -1,13 +1,19 @@
 """Reduced volumes for SO(3) and SU(2): polygon spaces against their published volumes."""
 
 import math
+import sys
+from pathlib import Path
 
 import jax.numpy as jnp
 import numpy as np
 import pytest
 
 import hamcheck
-from models import polygons
+
+MODELS = Path(__file__).resolve().parent.parent / "models"
+if str(MODELS) not in sys.path:
+    sys.path.insert(0, str(MODELS))
+import polygons  # noqa: E402  (models/polygons.py)
 
 PAULI = [np.array([[0, 1], [1, 0]], complex), np.array([[0, -1j], [1j, 0]]), np.array([[1, 0], [0, -1]], complex)]
 

@@ -154,7 +154,7 @@ def _from_fixed_points(fps, n, a0):
     return math.fsum(terms), bound
 
 
-def rank_one_volumes(model, B, c, lam, *, seed, samples, group_volume):
+def rank_one_volumes(model, B, c, lam, *, seed, group_volume):
     """Estimates of ``vol(mu_h^{-1}(lam) / H)`` for ``H`` of rank one (see the module docstring).
 
     Returns ``(estimates, note)``: a tuple of :class:`VolumeEstimate` (best

@@ -48,8 +48,16 @@ RANK_RTOL = 1e-4
 PROJECTION_RTOL = 1e-12
 PROJECTION_ITERATIONS = 60
 #: Kernel density bandwidths (fractions of the spread of mu_h) for the
-#: Richardson-extrapolated density at the level (bias ~ eps^2).
-KDE_BANDWIDTH = 0.04
+#: Richardson-extrapolated density at the level (bias ~ eps^2); wide enough that
+#: the sampling noise (measured over independent scramblings) stays ~1e-2.
+KDE_BANDWIDTH = 0.1
+#: Independent scramblings of the Sobol samples for the kernel estimate; its
+#: error is the Richardson correction plus ERROR_FACTOR standard errors.
+KDE_REPLICATES = 4
+ERROR_FACTOR = 3.0
+#: A kernel estimate whose error exceeds this fraction of itself is not
+#: reported: the density does not settle (typically a non-compact reduced space).
+VOLUME_MAX_RTOL = 0.1
 
 
 @dataclass(frozen=True, eq=False)
@@ -116,14 +124,15 @@ def _build(model):
     return jax.jit(mu_h), jax.jit(jax.jacfwd(mu_h)), jax.jit(geometry)
 
 
-def _null(A, tol):
+def _null(A, tol, scale=0.0):
+    """Null space of ``A``: singular values below ``tol`` times the largest (or ``scale``, if larger) count as 0."""
     _, s, vt = np.linalg.svd(A)
-    r = int(np.sum(s > tol * max(s[0] if s.size else 0, 1e-300)))
+    r = int(np.sum(s > tol * max(s[0] if s.size else 0, scale, 1e-300)))
     return vt[r:].T
 
 
 def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, group_volume=None,
-           volume_samples: int = 2**14) -> Reduction:
+           volume_samples: int = 2**15) -> Reduction:
     """Check the hypotheses and conclusion of Marsden-Weinstein at ``level`` and report dim and volume.
 
     ``subalgebra``: names, indices or vectors spanning ``h`` (default: all of g);
@@ -178,7 +187,8 @@ def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, g
         free.append(sX[-1] / max(sX[0], tX, 1e-300))
         T = _null(J, RANK_RTOL)  # tangent space of Z
         K = T.T @ W @ T
-        ker = T @ _null(K, RANK_RTOL) if K.size else np.zeros((model.dim, 0))
+        # relative to omega itself: on a 0-dimensional reduction K is round-off and all of T Z is kernel
+        ker = T @ _null(K, RANK_RTOL, np.linalg.norm(W, 2)) if K.size else np.zeros((model.dim, 0))
         orbit = (h_lam.T @ X).T  # directions of H_level orbits (d x k_lam)
         if ker.shape[1] != k_lam:
             kern.append(1.0)
@@ -192,7 +202,7 @@ def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, g
     volume, err, how = None, None, "not computed: the level is not fixed by H (H_level != H)"
     estimates = ()
     if k_lam == m and regular and locally_free and np.any(c):
-        estimates, how = rank_one_volumes(model, B, c, lam, seed=seed, samples=volume_samples, group_volume=group_volume)
+        estimates, how = rank_one_volumes(model, B, c, lam, seed=seed, group_volume=group_volume)
         if estimates:
             volume, err = estimates[0].value, estimates[0].error
             how = f"{estimates[0].method}; {how}"
@@ -202,7 +212,8 @@ def reduce(model, level, subalgebra=None, *, samples: int = 16, seed: int = 0, g
             how = "not computed: pass group_volume (volume of H in the basis of the subalgebra)"
         else:
             f, ferr, how = _density_at(model, B, lam, seed, volume_samples)
-            volume, err = f / vol_h, ferr / vol_h
+            if f is not None:
+                volume, err = f / vol_h, ferr / vol_h
     return Reduction(
         model.name, tuple(float(v) for v in lam), len(pts), regular, locally_free, kernel_ok, dim, volume, err, how,
         float(min(reg)), float(min(free)), float(max(kern)), tuple(estimates),
@@ -216,16 +227,30 @@ def _density_at(model, B, lam, seed, volume_samples):
         fps = fixed_points(model, B[0], seed=seed)
         if len(fps) and fps.isolated:
             return float(dh_density(fps, n, lam[0])), 0.0, "DH density from the fixed points of the circle"
-    _, w, mu = weighted_samples(model, volume_samples, seed)
-    y = mu @ B.T - lam
-    spread = np.sqrt(np.average(y ** 2, axis=0, weights=w) - np.average(y, axis=0, weights=w) ** 2)
     m = B.shape[0]
+    f1s, f2s = [], []
+    for r in range(KDE_REPLICATES):
+        _, w, mu = weighted_samples(model, volume_samples, seed=1000 * seed + r)
+        y = mu @ B.T - lam
+        if r == 0:  # one bandwidth for every replicate
+            spread = np.sqrt(np.average(y ** 2, axis=0, weights=w) - np.average(y, axis=0, weights=w) ** 2)
 
-    def kde(eps):
-        h = eps * spread
-        k = np.exp(-0.5 * np.sum((y / h) ** 2, axis=1)) / ((2 * np.pi) ** (m / 2) * np.prod(h))
-        return float(np.sum(w * k))
+        def kde(eps):
+            h = eps * spread
+            k = np.exp(-0.5 * np.sum((y / h) ** 2, axis=1)) / ((2 * np.pi) ** (m / 2) * np.prod(h))
+            return float(np.sum(w * k))
 
-    f1, f2 = kde(KDE_BANDWIDTH), kde(2 * KDE_BANDWIDTH)
+        f1s.append(kde(KDE_BANDWIDTH))
+        f2s.append(kde(2 * KDE_BANDWIDTH))
+    f1, f2 = float(np.mean(f1s)), float(np.mean(f2s))
     f = (4 * f1 - f2) / 3
-    return f, abs(f1 - f2) / 3, "kernel estimate of the DH density (Richardson over two bandwidths)"
+    noise = float(np.std([(4 * a - b) / 3 for a, b in zip(f1s, f2s)], ddof=1)) / math.sqrt(KDE_REPLICATES)
+    err = abs(f1 - f2) / 3 + ERROR_FACTOR * noise
+    how = (f"kernel estimate of the DH density (Richardson over two bandwidths, {KDE_REPLICATES} x "
+           f"{volume_samples} Liouville samples)")
+    if not np.isfinite(f) or err > VOLUME_MAX_RTOL * abs(f):
+        return None, None, (
+            f"not computed: the kernel estimate of the DH density does not settle (relative error "
+            f"{err / max(abs(f), 1e-300):.2g} > {VOLUME_MAX_RTOL:g}): the reduced space may not be compact "
+            "(infinite volume), or the samples are too few near the level (pass more volume_samples)")
+    return f, err, how
