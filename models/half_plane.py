@@ -1,7 +1,9 @@
 """The upper half-plane with PSL(2, R) acting by Möbius maps.
 
 omega = dx ^ dy / y^2; basis H = diag(1, -1), E = e_12, F = e_21 of sl(2, R);
-mu^H = -2x/y, mu^E = -1/y, mu^F = (x^2 + y^2)/y (finite.md row 6).
+mu^H = -2x/y, mu^E = -1/y, mu^F = (x^2 + y^2)/y (docs/references.md F6).
+The chart is the whole upper half-plane: its domain is declared as y > 0, so
+integrals and searches stay in it.
 """
 
 import jax.numpy as jnp
@@ -33,4 +35,5 @@ def sample(rng):
     return np.array([rng.standard_normal(), np.exp(0.5 * rng.standard_normal())])
 
 
-half_plane = hamcheck.Model("half-plane", 2, form=form, algebra=SL2, moment=moment, action=mobius, sample=sample)
+half_plane = hamcheck.Model("half-plane", 2, form=form, algebra=SL2, moment=moment, action=mobius, sample=sample,
+                            domain=[(-np.inf, np.inf), (0.0, np.inf)], chart_labels=["x", "y"])
