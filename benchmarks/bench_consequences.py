@@ -1,4 +1,4 @@
-"""Benchmark: localization of CP^2 and of a 6-dim U(3) orbit, fixed points of CP^5.
+"""Benchmark: localization of CP^2 and of a 6-dim U(3) orbit, fixed points of CP^5, polygon-space volumes.
 
 Prints a table of medians over repeats (wall time includes compilation on the
 first repeat, reported separately). Run: python benchmarks/bench_consequences.py
@@ -13,11 +13,13 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "models"))
 
 import hamcheck  # noqa: E402
 from hamcheck.orbits import coadjoint_orbit, unitary_flag_chart  # noqa: E402
 from test_fixed_points import cpn  # noqa: E402
 from test_orbits import components, un  # noqa: E402
+import polygons  # noqa: E402
 
 REPEATS = 3
 
@@ -46,6 +48,11 @@ def main():
     cp5 = cpn(5)
     fps, first5, med5 = timed(lambda: hamcheck.fixed_points(cp5, [0.31, -0.72, 1.13, 0.55, -1.41], starts=64))
     rows.append((f"CP^5 fixed points: {len(fps)} of 6 found", "-", "-", first5, med5))
+    # Kapovich-Millson 1996 (from memory): 3 pi and 10 pi^2
+    for radii, ref, label in (([1.0, 1.4, 0.8, 1.1], 3 * math.pi, "quadrilateral"), ([1.0] * 5, 10 * math.pi ** 2, "pentagon")):
+        red, f, m = timed(lambda: hamcheck.reduce(polygons.build(radii), [0.0, 0.0, 0.0]))
+        rows.append((f"SO(3) reduced volume, {label} space (dim {red.dim})", f"{abs(red.volume - ref) / ref:.1e}",
+                     f"{red.volume_error / ref:.1e}", f, m))
     print(f"{'case':58s} {'rel diff':>9s} {'rel err':>9s} {'first s':>8s} {'median s':>9s}")
     for name, d, e, f, m in rows:
         print(f"{name:58s} {d:>9s} {e:>9s} {f:8.2f} {m:9.2f}")
