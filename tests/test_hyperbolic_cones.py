@@ -58,6 +58,15 @@ def test_compare_methods_on_q_potential_and_class():
     assert ag.class_a == ag.class_b
 
 
+def test_compare_methods_on_three_cones():
+    # three cones (two free accessory parameters): the Liouville solution (A) and the monodromy root (B) agree on
+    # the residues and the boundary potential within A's own error estimate, and give one class
+    ag = hyperbolic.compare_methods([(0.1 + 0.5j, 3.0), (-0.6, 2.0), (0.4 - 0.3j, 5.0)], c=C)
+    assert ag.agree, ag
+    assert ag.class_a == ag.class_b
+    assert abs(ag.trace_a - ag.trace_b) <= 1e-4 * abs(ag.trace_b)
+
+
 def test_two_cone_trace_identity_against_distance(two_cone):
     # product of rotations by a1, a2 about points at distance d: tr = +-2[cos(a1/2)cos(a2/2) - sin sin cosh d]
     # (hyperbolic trigonometry, e.g. Beardon, Geometry of discrete groups, sec. 7.38; from memory)
