@@ -22,6 +22,7 @@ array([0., 0., 1.])
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -39,6 +40,43 @@ def _as_real_vectors(mats: np.ndarray) -> np.ndarray:
     return np.concatenate([flat.real, flat.imag], axis=1).T
 
 
+#: A basis with at most this fraction of nonzero entries is treated as sparse:
+#: its commutators are formed with ``scipy.sparse`` and pairs that commute are
+#: skipped (a torus of 256 rotation blocks in 512 x 512 matrices: seconds, where
+#: dense products take hours).
+SPARSE_DENSITY = 0.05
+
+
+def _dense_commutators(mats):
+    """``(a, b, [e_a, e_b] as a real vector)`` for ``a < b``, one batched product per ``a``."""
+    k = mats.shape[0]
+    for a in range(k - 1):
+        comm = mats[a] @ mats[a + 1:] - mats[a + 1:] @ mats[a]
+        V = _as_real_vectors(comm)
+        for j, b in enumerate(range(a + 1, k)):
+            yield a, b, V[:, j]
+
+
+def _sparse_commutators(mats):
+    """As :func:`_dense_commutators`, for sparse matrices, skipping the pairs that commute exactly."""
+    from scipy import sparse
+
+    k, d = mats.shape[0], mats.shape[1]
+    S = [sparse.csr_matrix(m) for m in mats]
+    used_rows = (np.abs(mats).sum(axis=2) > 0).astype(float)  # (k, d): rows each matrix uses
+    used_cols = (np.abs(mats).sum(axis=1) > 0).astype(float)
+    meet = used_cols @ used_rows.T > 0  # e_a e_b can be nonzero only where a's columns meet b's rows
+    meet = meet | meet.T
+    for a, b in zip(*np.nonzero(np.triu(meet, 1))):
+        comm = (S[a] @ S[b] - S[b] @ S[a]).tocoo()
+        comm.eliminate_zeros()
+        if comm.nnz == 0:
+            continue
+        flat = np.zeros(d * d, dtype=mats.dtype)
+        flat[comm.row * d + comm.col] = comm.data
+        yield int(a), int(b), np.concatenate([flat.real, flat.imag])
+
+
 @dataclass(frozen=True, eq=False)
 class LieAlgebra:
     """A finite-dimensional real Lie algebra with a chosen basis.
@@ -52,6 +90,8 @@ class LieAlgebra:
     names: tuple[str, ...]
     basis: np.ndarray | None = field(default=None, repr=False)
     _pinv: np.ndarray | None = field(default=None, repr=False)
+    #: Entries (of the real vector of a matrix) that ``_pinv`` acts on; None: all of them.
+    _rows: np.ndarray | None = field(default=None, repr=False)
 
     # ----------------------------------------------------------------- builders
     @classmethod
@@ -75,7 +115,11 @@ class LieAlgebra:
         mats = mats.astype(np.complex128 if np.iscomplexobj(mats) else np.float64)
         k = mats.shape[0]
         names = cls._names(names, k)
-        B = _as_real_vectors(mats)
+        # only the entries some basis matrix uses: the rows of B that are not zero (a torus of 256
+        # rotation blocks uses 512 of 2 x 512^2), so the SVD and the pseudo-inverse stay small
+        flat = mats.reshape(k, -1)
+        rows = np.flatnonzero(np.concatenate([np.any(flat.real != 0, axis=0), np.any(flat.imag != 0, axis=0)]))
+        B = np.concatenate([flat.real, flat.imag], axis=1)[:, rows].T
         u, s, vt = np.linalg.svd(B, full_matrices=False)
         if s[-1] <= TOLERANCES.basis_rtol * s[0]:
             j = int(np.argmax(np.abs(vt[-1])))
@@ -83,24 +127,26 @@ class LieAlgebra:
                 f"basis is not linearly independent: {names[j]} is (nearly) a combination of the "
                 f"others (relative singular value {s[-1] / s[0]:.1e}); expected {k} independent matrices"
             )
-        pinv = np.linalg.pinv(B)
+        pinv = (vt.T / s) @ u.T  # full column rank (just checked): the pseudo-inverse from the same SVD
+        outside = np.ones(2 * flat.shape[1], dtype=bool)
+        outside[rows] = False
         C = np.zeros((k, k, k))
-        for a in range(k):
-            for b in range(k):
-                comm = mats[a] @ mats[b] - mats[b] @ mats[a]
-                v = _as_real_vectors(comm[None])[:, 0]
-                coords = pinv @ v
-                miss = np.linalg.norm(B @ coords - v)
-                scale = np.linalg.norm(mats[a]) * np.linalg.norm(mats[b])
-                if miss > TOLERANCES.basis_rtol * max(scale, np.finfo(float).tiny):
-                    raise ModelError(
-                        f"basis is not closed under the commutator: [{names[a]}, {names[b]}] leaves the "
-                        f"span of the basis (relative distance {miss / scale:.2e}); add the missing "
-                        "element to the basis or fix the matrices"
-                    )
-                C[a, b] = coords
+        norms = np.linalg.norm(mats.reshape(k, -1), axis=1)
+        sparse_basis = np.count_nonzero(mats) <= SPARSE_DENSITY * mats.size
+        commutators = _sparse_commutators(mats) if sparse_basis else _dense_commutators(mats)
+        for a, b, v in commutators:
+            coords = pinv @ v[rows]
+            miss = math.hypot(np.linalg.norm(B @ coords - v[rows]), np.linalg.norm(v[outside]))
+            scale = norms[a] * norms[b]
+            if miss > TOLERANCES.basis_rtol * max(scale, np.finfo(float).tiny):
+                raise ModelError(
+                    f"basis is not closed under the commutator: [{names[a]}, {names[b]}] leaves the "
+                    f"span of the basis (relative distance {miss / scale:.2e}); add the missing "
+                    "element to the basis or fix the matrices"
+                )
+            C[a, b], C[b, a] = coords, -coords
         C[np.abs(C) < 1e-14 * max(1.0, np.abs(C).max())] = 0.0
-        return cls(C, names, mats, pinv)
+        return cls(C, names, mats, pinv, rows)
 
     @classmethod
     def from_structure_constants(cls, C, names=None) -> "LieAlgebra":
@@ -184,7 +230,7 @@ class LieAlgebra:
         self._require_matrices("coordinates")
         flat = jnp.ravel(M)
         v = jnp.concatenate([jnp.real(flat), jnp.imag(flat)])
-        return jnp.asarray(self._pinv) @ v
+        return jnp.asarray(self._pinv) @ (v if self._rows is None else v[jnp.asarray(self._rows)])
 
     def exp(self, xi):
         """The group element ``exp(sum_a xi_a e_a)`` as a matrix."""

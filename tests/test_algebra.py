@@ -109,3 +109,47 @@ def test_abstract_algebra_has_no_group():
     with pytest.raises(ModelError, match="from_matrices"):
         alg.exp(np.zeros(3))
     assert "abstract" in repr(alg)
+
+
+def _gl(n):
+    """Elementary basis E_ij of gl(n) and its structure constants [E_ij, E_kl] = d_jk E_il - d_li E_kj
+    (common practice)."""
+    idx = [(i, j) for i in range(n) for j in range(n)]
+    pos = {ij: a for a, ij in enumerate(idx)}
+    E = []
+    for i, j in idx:
+        m = np.zeros((n, n))
+        m[i, j] = 1.0
+        E.append(m)
+    C = np.zeros((n * n,) * 3)
+    for a, (i, j) in enumerate(idx):
+        for b, (k, l) in enumerate(idx):
+            C[a, b, pos[(i, l)]] += j == k
+            C[a, b, pos[(k, j)]] -= l == i
+    return E, C
+
+
+@pytest.mark.parametrize("n", [3, 8])  # 3: dense products (1/9 of the entries used); 8: the sparse path (1/64)
+def test_structure_constants_of_gl_n_match_the_formula(n):
+    E, C = _gl(n)
+    alg = LieAlgebra.from_matrices(E)
+    assert np.array_equal(alg.structure_constants, C)
+    assert np.allclose(np.asarray(alg.coordinates(2.0 * E[5] - E[1])), 2.0 * np.eye(n * n)[5] - np.eye(n * n)[1])
+
+
+def test_a_sparse_basis_that_is_not_closed_names_the_bracket():
+    # negative control on the sparse path: E_12 and E_21 of gl(8) without E_11 - E_22 = [E_12, E_21]
+    E, _ = _gl(8)
+    with pytest.raises(ModelError, match=r"\[a, b\] leaves the span"):
+        LieAlgebra.from_matrices([E[1], E[8]], names=["a", "b"])
+
+
+def test_a_sparse_torus_is_abelian_exactly():
+    # n rotation blocks in 2n x 2n matrices (the CP^n benchmark's torus, here n = 64): abelian, so C = 0 exactly
+    n = 64
+    basis = np.zeros((n, 2 * n, 2 * n))
+    for k in range(n):
+        basis[k, k, n + k], basis[k, n + k, k] = -1.0, 1.0
+    alg = LieAlgebra.from_matrices(basis)
+    assert not np.any(alg.structure_constants)
+    assert np.allclose(np.asarray(alg.coordinates(3.0 * basis[7])), 3.0 * np.eye(n)[7])
