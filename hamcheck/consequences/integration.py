@@ -35,6 +35,11 @@ __all__ = ["CUBATURE_MAX_DIM", "cube_map", "integrate", "weighted_samples"]
 CUBATURE_MAX_DIM = 4
 #: Points per jitted evaluation batch (fixed, so one compilation serves all calls).
 BATCH = 8192
+#: Points vmapped together inside that batch (``jax.lax.map(..., batch_size=VMAP_BATCH)``). One vmap over
+#: all 8192 points hung jaxlib 0.10.2's CPU runtime (every thread idle) within 5 to 25 evaluations of the
+#: u(3) orbit's integrand (batched LAPACK inverses and determinants); sub-batches of 256 ran 500
+#: evaluations without a hang and as fast (measured; DEVELOPERS.md, Known limits).
+VMAP_BATCH = 256
 #: Randomizations of the scrambled Sobol set; their spread / sqrt(R) is the error.
 QMC_RANDOMIZATIONS = 8
 
@@ -115,7 +120,7 @@ def _build_integrand(model):
         mu = model.moment_at(x)
         return jnp.exp(s * (mu @ xi) + log_liouville(model, x) + logj), x, mu
 
-    return jax.jit(jax.vmap(one, in_axes=(0, None, None)))
+    return jax.jit(lambda U, s, xi: jax.lax.map(lambda u: one(u, s, xi), U, batch_size=VMAP_BATCH))
 
 
 def _evaluator(model):
