@@ -139,3 +139,54 @@ def test_orbits_without_a_covering_chart_say_so():
     assert "singular" in m.construction.reason and m.domain is None
     with pytest.raises(ModelError, match="do not cover the space once"):
         hamcheck.localization(m, np.array([0.5, -0.2, -0.4] + [0.0] * 6), 1.0, starts=4)
+
+
+def _hciz_times_volume(a, b, t):
+    """Orbit volume (docs/references.md row F4b, Macdonald 1980) times the HCIZ integral (row F4,
+    Harish-Chandra 1957; Itzykson-Zuber 1980), evaluated independently with mpmath at 30 digits."""
+    import mpmath
+
+    n = len(a)
+    with mpmath.workdps(30):
+        det = mpmath.det(mpmath.matrix([[mpmath.exp(t * ai * bj) for bj in b] for ai in a]))
+
+        def vandermonde(v):
+            return mpmath.fprod(v[i] - v[j] for i in range(n) for j in range(i + 1, n))
+
+        superfactorial = mpmath.fprod(mpmath.factorial(p) for p in range(1, n))
+        hciz = superfactorial * det / (t ** (n * (n - 1) // 2) * vandermonde(a) * vandermonde(b))
+        vol = (2 * mpmath.pi) ** (n * (n - 1) // 2) * abs(vandermonde(b)) / superfactorial
+        return float(vol * hciz)
+
+
+def test_u3_orbit_localization_is_volume_times_hciz():
+    # the built (default, covering) chart of a regular u(3) orbit integrates with no extra arguments;
+    # localization = vol * HCIZ (docs/references.md rows F4, F4b)
+    b, a, t = (1.1, 0.3, -0.6), (0.5, -0.2, -0.4), 1.0
+    alg = un(3)
+    m = coadjoint_orbit(alg, components(alg, np.diag(b)))
+    assert m.construction.kind == "unitary-flag" and m.construction.covers_once
+    xi = np.array([-a[0], -a[1], -a[2]] + [0.0] * 6)  # <H, xi> = i tr(H xi) = tr(A H)
+    loc = hamcheck.localization(m, xi, t, samples=2**15, starts=48)
+    expected = _hciz_times_volume(a, b, t)
+    assert len(loc.fixed_points) == 6  # the Weyl group orbit of diag(b)
+    assert loc.fixed_point_sum == pytest.approx(expected, rel=1e-10)
+    # the Sobol estimate is ~0.5% at 2^15 points in dimension 6; its own error estimate must cover it
+    assert abs(loc.integral - expected) <= 3 * loc.error
+    assert loc.agrees
+
+
+def test_u3_localization_negative_control_doubled_form():
+    # planted mistake: the KKS form doubled (moment map unchanged) multiplies the volume form by 2^3,
+    # so the integral no longer matches vol * HCIZ, while the fixed-point side still does
+    b, a, t = (1.1, 0.3, -0.6), (0.5, -0.2, -0.4), 1.0
+    alg = un(3)
+    m = coadjoint_orbit(alg, components(alg, np.diag(b)))
+    bad = hamcheck.Model("u3 2omega", m.dim, form=lambda y: 2 * m.form(y), algebra=alg, moment=m.moment,
+                         vector_fields=m.vector_fields, domain=m.domain)
+    xi = np.array([-a[0], -a[1], -a[2]] + [0.0] * 6)
+    loc = hamcheck.localization(bad, xi, t, samples=2**12, starts=48)
+    expected = _hciz_times_volume(a, b, t)
+    assert abs(loc.integral - 8 * expected) <= 3 * loc.error + 0.05 * 8 * expected
+    assert loc.fixed_point_sum == pytest.approx(expected, rel=1e-10)
+    assert not loc.agrees
