@@ -105,7 +105,7 @@ class Check:
       an optional search beyond the samples (the degenerate-point search);
     * ``own_program``: compile the kernel as a program of its own, in parallel with the
       program the other kernels share (for a kernel whose compilation dominates and
-      which shares little with the others, such as the flow check's RK4 steps);
+      which shares little with the others, such as the flow check's Runge-Kutta steps);
     * ``finding_kinds``: the kinds ``diagnose`` can report (listed in ``FINDING_KINDS``).
     """
 
