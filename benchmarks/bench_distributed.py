@@ -6,14 +6,17 @@
    on an embedded 2-worker Dask LocalCluster (cluster start included: what
    ``--jobs 2`` would cost on Dask), and on a running 2-worker cluster reached
    by its address (as ``--scheduler ADDRESS``; connecting included).
-2. A stability chart of Mathieu's potential ``a - 2q cos 2theta`` (c = 1) on a
+2. A sweep of a model family (CP^2 with its form scaled by s, 8 values): every
+   member checked by its own ``hamcheck.check`` call, against ``hamcheck.sweep``,
+   whose members share compiled programs (the float parameter s is traced).
+3. A stability chart of Mathieu's potential ``a - 2q cos 2theta`` (c = 1) on a
    100 x 100 grid: in this process, and on 1- and 2-worker clusters.
 
 The persistent compilation cache is switched off (``HAMCHECK_CACHE_DIR=``) so
 every run compiles, as a fresh batch does; a run is one measurement (the batch
 takes minutes), so compare ratios from one run on a quiet machine.
 
-Run: python benchmarks/bench_distributed.py [--files 16] [--points 8] [--grid 100]
+Run: python benchmarks/bench_distributed.py [--files 16] [--points 8] [--grid 100] [--members 8]
 """
 
 from __future__ import annotations
@@ -90,6 +93,34 @@ def batch_rows(n_files, points):
         shutil.rmtree(folder, ignore_errors=True)
 
 
+def sweep_rows(members, points):
+    import importlib.util
+
+    import hamcheck
+
+    spec = importlib.util.spec_from_file_location("cp_models", ROOT / "models" / "projective_space.py")
+    cp = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(cp)
+
+    def family(s):  # CP^2, form and moment map scaled by s
+        return cp.torus(2, scale=s)
+
+    values = [float(v) for v in np.linspace(0.5, 4.0, members)]
+    each = []
+    for s in values:
+        t, report = timed(lambda: hamcheck.check(family(s), points=points))
+        assert report.passed
+        each.append(t)
+    t_sweep, table = timed(lambda: hamcheck.sweep(family, {"s": values}, points=points))
+    assert table.passed
+    per = [r.seconds for r in table]
+    return [
+        ("sweep", f"{members} CP^2 members, one check() each (median {np.median(each):.2f} s per member)", sum(each), None),
+        ("sweep", f"the same as one sweep, programs shared (first {per[0]:.2f} s, then median {np.median(per[1:]):.2f} s)",
+         t_sweep, sum(each) / t_sweep),
+    ]
+
+
 def chart_rows(n):
     import distributed
 
@@ -110,13 +141,19 @@ def main():
     ap.add_argument("--files", type=int, default=16)
     ap.add_argument("--points", type=int, default=8)
     ap.add_argument("--grid", type=int, default=100)
+    ap.add_argument("--members", type=int, default=8)
     ap.add_argument("--skip-batch", action="store_true")
+    ap.add_argument("--skip-chart", action="store_true")
     args = ap.parse_args()
     rows, note = [], ""
     if not args.skip_batch:
         rows, note = batch_rows(args.files, args.points)
-    chart = chart_rows(args.grid)
-    one = next(r[2] for r in chart if "1-worker" in r[1])
+    rows += sweep_rows(args.members, args.points)
+    if args.skip_chart:
+        chart = []
+    else:
+        chart = chart_rows(args.grid)
+    one = next((r[2] for r in chart if "1-worker" in r[1]), None)
     print(f"| what | run | seconds | speed-up |\n|---|---|---|---|")
     for kind, label, t, ratio in rows:
         print(f"| {kind} | {label} | {t:.1f} | {'1.00' if ratio is None else f'{ratio:.2f}'} |")

@@ -107,7 +107,13 @@ def _plain(v):
 
 @dataclass(frozen=True, repr=False)
 class SweepTable:
-    """Rows of a sweep in grid order; ``names`` the parameters, ``checks`` the checks that ran."""
+    """Rows of a sweep in grid order; ``names`` the parameters, ``checks`` the checks that ran.
+
+    ``programs`` says how the members' compiled check programs were shared (one
+    line per distinct outcome): float parameters are traced so that members of
+    one shape share a program, unless ``build`` could not take traced values
+    (the line then gives the reason, and each member compiled its own).
+    """
 
     names: tuple
     checks: tuple
@@ -115,6 +121,7 @@ class SweepTable:
     points: int
     seed: int
     seconds: float = 0.0
+    programs: tuple = ()
 
     def __repr__(self) -> str:
         n_pass = sum(r.passed is True for r in self.rows)
@@ -148,7 +155,8 @@ class SweepTable:
     def to_dict(self) -> dict:
         return {
             "kind": "sweep", "parameters": list(self.names), "checks": list(self.checks), "points": self.points,
-            "seed": self.seed, "seconds": round(self.seconds, 3), "rows": [r.to_dict() for r in self.rows],
+            "seed": self.seed, "seconds": round(self.seconds, 3), "programs": list(self.programs),
+            "rows": [r.to_dict() for r in self.rows],
         }
 
     def to_json(self, **kwargs) -> str:
@@ -257,6 +265,7 @@ def _combinations(grid) -> tuple[tuple, list[dict]]:
 
 def _check_member(build, params, kwargs):
     """Build and check one member of the family (here or on a worker); plain data out."""
+    from .checks._family import Family
     from .model import Model
     from .suite import check
 
@@ -267,8 +276,34 @@ def _check_member(build, params, kwargs):
         return {"params": params, "error": f"build raised {type(exc).__name__}: {' '.join(str(exc).split())[:200]}"}
     if not isinstance(model, Model):
         return {"params": params, "error": f"build returned {type(model).__name__}; expected a hamcheck.Model"}
-    report = check(model, **kwargs)
-    return {"params": params, "report": report.to_dict(), "seconds": time.perf_counter() - t0}
+    family = Family(build, params)
+    report = check(model, **kwargs, _family=family)
+    if not family.traced_names:
+        programs = "one per member: no float parameter to trace"
+    else:
+        programs = family.refusal or f"shared by the members of one shape ({', '.join(family.traced_names)} traced)"
+    return {"params": params, "report": report.to_dict(), "seconds": time.perf_counter() - t0, "programs": programs}
+
+
+def _check_members(build, params_list, kwargs):
+    return [_check_member(build, p, kwargs) for p in params_list]
+
+
+def _on_client(client, build, combos, kwargs) -> list:
+    """The members in two tasks per worker, members of one shape together: each task unpickles
+    ``build`` once, so its members share compiled programs as they do here."""
+    from .checks._family import Family
+    from .distributed import gather_in_order
+
+    workers = max(1, len(client.scheduler_info().get("workers", {})))
+    order = sorted(range(len(combos)), key=lambda i: Family(build, combos[i]).key)
+    chunks = [list(c) for c in np.array_split(order, min(len(combos), 2 * workers)) if len(c)]
+    futures = [client.submit(_check_members, build, [combos[i] for i in ch], kwargs, pure=False) for ch in chunks]
+    results = [None] * len(combos)
+    for ch, part in zip(chunks, gather_in_order(futures, what="a chunk of the sweep's models")):
+        for i, r in zip(ch, part):
+            results[i] = r
+    return results
 
 
 def _row(data, build_name, kwargs) -> SweepRow:
@@ -298,9 +333,11 @@ def sweep(build, grid, *, points: int = 32, seed: int = 0, only=None, tolerances
     ``grid`` maps names to value lists (their Cartesian product is swept, the
     last name varying fastest) or is a list of parameter dicts. ``points``,
     ``seed``, ``only``, ``tolerances``, ``settings`` go to :func:`hamcheck.check`,
-    so each row equals an individual ``check`` call. With a Dask ``client`` each
-    model is built and checked on a worker (``build`` is shipped with cloudpickle,
-    so it must not hold unpicklable state). A ``build`` that raises gives a row
+    so each row equals an individual ``check`` call. With a Dask ``client`` the
+    models are built and checked on the workers, two tasks per worker with the
+    members of one shape together (``build`` is shipped with cloudpickle, so it
+    must not hold unpicklable state). Members of one shape share compiled
+    programs (``SweepTable.programs`` says whether they could). A ``build`` that raises gives a row
     with ``passed = None`` and the message; the sweep goes on.
     """
     if not callable(build):
@@ -311,11 +348,9 @@ def sweep(build, grid, *, points: int = 32, seed: int = 0, only=None, tolerances
     if client is None:
         results = [_check_member(build, p, kwargs) for p in combos]
     else:
-        from .distributed import gather_in_order
-
-        futures = [client.submit(_check_member, build, p, kwargs, pure=False) for p in combos]
-        results = gather_in_order(futures, what="a model of the sweep")
+        results = _on_client(client, build, combos, kwargs)
     build_name = getattr(build, "__name__", "build")
     rows = tuple(_row(r, build_name, kwargs) for r in results)
     checks = tuple(dict.fromkeys(c for r in rows for c in r.status))
-    return SweepTable(names, checks, rows, points, seed, time.perf_counter() - t0)
+    programs = tuple(dict.fromkeys(r["programs"] for r in results if "programs" in r))
+    return SweepTable(names, checks, rows, points, seed, time.perf_counter() - t0, programs)

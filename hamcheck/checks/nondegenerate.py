@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._jax import jax, jnp
-from ..cache import compile_lowered, compiled
+from ._family import compile_for
 from ..diagnose import Diagnosis, at
 from ._base import TINY, Check, Tolerance
 
@@ -108,19 +108,19 @@ def search_degenerate(model, pts, r, out, settings):
     typical = float(np.median(out["smax"]))
     lo, hi = pts.min(axis=0), pts.max(axis=0)
     if model.traced:
-        def build(model):
+        def make(m):
             # the typical scale is an argument, so the program is reused across calls
             def ratio_t(x, t):
-                smin, smax = singular_range(model.form_at(x))
+                smin, smax = singular_range(m.form_at(x))
                 return smin / jnp.maximum(jnp.maximum(smax, t), 1e-300)
 
-            spec = (jax.ShapeDtypeStruct((model.dim,), jnp.float64), jax.ShapeDtypeStruct((), jnp.float64))
-            fn = jax.jit(jax.value_and_grad(ratio_t)).lower(*spec)
-            from .run import FAST_COMPILE  # the cheap optimisation level of the checks' programs
+            return jax.value_and_grad(ratio_t)
 
-            return compile_lowered(fn, FAST_COMPILE if settings.fast_compile else None)
+        from .run import FAST_COMPILE  # the cheap optimisation level of the checks' programs
 
-        grad_fn = compiled(model, ("degeneracy-search", settings.fast_compile), build)
+        spec = (jax.ShapeDtypeStruct((model.dim,), jnp.float64), jax.ShapeDtypeStruct((), jnp.float64))
+        grad_fn = compile_for(model, ("degeneracy-search", settings.fast_compile), make, spec,
+                              FAST_COMPILE if settings.fast_compile else None)
         fun = lambda x: grad_fn(x, jnp.float64(typical))  # noqa: E731
 
         def objective(x):

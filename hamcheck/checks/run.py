@@ -14,6 +14,7 @@ one point is reported while the other points are still checked.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import os
 import shlex
@@ -166,7 +167,7 @@ def _programs(checks_by_name, names):
     return ([shared] if shared else []) + alone
 
 
-def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
+def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, family=None):
     """Run the kernels in few jitted programs; on a tracing failure, isolate per kernel.
 
     The kernels sharing the form and its derivatives run in one program; a check
@@ -175,6 +176,10 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
     The points are split into ``workers`` equal chunks run in parallel threads by
     the same compiled program. Points are padded to whole chunks and batches:
     a remainder would make XLA compile the program twice.
+
+    With a ``family`` (a sweep's member, ``checks/_family.py``) the programs take
+    the member's float parameters as an argument and are kept for the whole
+    family; if that fails in any way the member is run as a model of its own.
     """
     n = xs.shape[0]
     # vmapped batches of LAPACK calls must not run concurrently (see Settings.max_batch)
@@ -185,37 +190,42 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
     n_pad = chunk * workers
     xs_p = _pad(xs, n_pad)
     probes_p = _pad(probes, n_pad)
-
-    def lowered(names):
-        def per_point(args):
-            x, pr = args
-            view = SharedPoint(model, x)  # form, fields, moment and their linearizations, once per point
-            return {nm: kernels[nm](view, x, pr.get(nm, {})) for nm in names}
-
-        spec = jax.tree_util.tree_map(
-            lambda a: jax.ShapeDtypeStruct((chunk,) + a.shape[1:], a.dtype),
-            (xs_p, {nm: probes_p.get(nm, {}) for nm in names}),
-        )
-        # one compiled program per model and layout: re-checking with another seed reuses it
-        key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
-        if batch == 1:  # a plain scan: no batched custom calls
-            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P)))
-        else:
-            fn = jax.jit(lambda X, P: jax.lax.map(per_point, (X, P), batch_size=batch))
-        return key, lambda: fn.lower(*spec)
-
     options = FAST_COMPILE if settings.fast_compile else None
 
-    def programs(groups):
-        """Compiled programs of the groups: lowered here (tracing holds the GIL), compiled in parallel."""
+    def run_all(groups, shared):
+        owner = family.build if shared else model
+        theta = jnp.asarray(family.theta) if shared else None
+
+        def lowered(names):
+            def program(th, X, P):
+                m = family.member(th) if shared else model  # traced parameters: one program for the family
+
+                def per_point(args):
+                    x, pr = args
+                    view = SharedPoint(m, x)  # form, fields, moment and their linearizations, once per point
+                    return {nm: kernels[nm](view, x, pr.get(nm, {})) for nm in names}
+
+                if batch == 1:  # a plain scan: no batched custom calls
+                    return jax.lax.map(per_point, (X, P))
+                return jax.lax.map(per_point, (X, P), batch_size=batch)
+
+            spec = jax.tree_util.tree_map(
+                lambda a: jax.ShapeDtypeStruct((chunk,) + a.shape[1:], a.dtype),
+                (xs_p, {nm: probes_p.get(nm, {}) for nm in names}),
+            )
+            th_spec = jax.ShapeDtypeStruct(theta.shape, theta.dtype) if shared else None
+            # one compiled program per model (or family) and layout: re-checking with another seed reuses it
+            key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
+            if shared:
+                key += family.key + (theta.shape,)
+            return key, lambda: jax.jit(program).lower(th_spec, *spec)
+
         keyed = [lowered(names) for names in groups]
-        todo = {key: lower() for key, lower in keyed if not has_compiled(model, key)}
+        # lowered here in turn (tracing holds the GIL), compiled in parallel threads
+        todo = {key: lower() for key, lower in keyed if not has_compiled(owner, key)}
         built = parallel_map(lambda low: compile_lowered(low, options), list(todo.values()), workers_available(settings))
         found = dict(zip(todo, built))
-        return [compiled(model, key, lambda _model, k=key: found[k]) for key, _ in keyed]
-
-    def run_all(groups):
-        progs = programs(groups)
+        progs = [compiled(owner, key, lambda _owner, k=key: found[k]) for key, _ in keyed]
         parts = [
             (xs_p[w * chunk:(w + 1) * chunk], jax.tree_util.tree_map(lambda a: a[w * chunk:(w + 1) * chunk], probes_p))
             for w in range(workers)
@@ -225,20 +235,26 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None):
             X, P = part
             outs = {}
             for names, prog in zip(groups, progs):
-                outs.update(jax.block_until_ready(prog(jnp.asarray(X), {nm: jax.tree_util.tree_map(jnp.asarray, P.get(nm, {})) for nm in names})))
+                outs.update(jax.block_until_ready(prog(theta, jnp.asarray(X), {nm: jax.tree_util.tree_map(jnp.asarray, P.get(nm, {})) for nm in names})))
             return jax.tree_util.tree_map(np.asarray, outs)
 
         outs = parallel_map(run_chunk, parts, workers=workers)
         return jax.tree_util.tree_map(lambda *a: np.concatenate(a)[:n], *outs)
 
+    groups = _programs(checks_by_name or {}, list(kernels))
+    if family is not None and family.shareable:
+        try:
+            return run_all(groups, True), {}
+        except Exception as exc:  # a build that cannot take traced parameters: this shape runs per member
+            family.refuse(exc)
     try:
-        return run_all(_programs(checks_by_name or {}, list(kernels))), {}
+        return run_all(groups, False), {}
     except Exception:
         pass
     results, errors = {}, {}
     for nm in kernels:
         try:
-            results[nm] = run_all([[nm]])[nm]
+            results[nm] = run_all([[nm]], False)[nm]
         except Exception as exc:
             errors[nm] = _first_line(exc)
     return results, errors
@@ -294,12 +310,14 @@ def check(
     only=None,
     tolerances: Tolerances | None = None,
     settings: Settings | None = None,
+    _family=None,
 ) -> Report:
     """Check every axiom of ``model`` at ``points`` sampled points.
 
     Faults inside the model's functions at particular points are reported
     (``non-finite`` and ``raised`` findings), never raised; the remaining
-    points are still checked.
+    points are still checked. (``_family`` is for :func:`hamcheck.sweep`: a
+    member whose compiled programs its family shares, see ``checks/_family.py``.)
 
     Example
     -------
@@ -352,7 +370,7 @@ def check(
     outputs: dict[str, dict] = {}
     if n:
         if model.traced:
-            outputs, errors = _run_traced(model, kernels, xs, probes, settings, {c.name: c for c in selected})
+            outputs, errors = _run_traced(model, kernels, xs, probes, settings, {c.name: c for c in selected}, _family)
         else:
             outputs, errors, point_faults = _run_eager(model, kernels, xs, probes)
 
@@ -383,7 +401,8 @@ def check(
             result = dataclasses.replace(result, message=f"could not run: {errors[c.name]}")
         else:
             ctx = _Context(model, xs, base_ok, tolerances, settings, c.name in point_faults, replay(c.name))
-            result, found, trust = _judge(c, outputs[c.name], result, ctx)
+            with _family.active(model) if _family is not None else contextlib.nullcontext():  # a refine's programs too
+                result, found, trust = _judge(c, outputs[c.name], result, ctx)
             findings += found
             diagnoses += trust
         results[c.name] = result
