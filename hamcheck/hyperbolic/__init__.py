@@ -4,7 +4,9 @@ A metric ``g = e^{2u}|dz|^2`` on the unit disk with cone points is validated
 (:func:`check_metric`), sent to its boundary Hill potential by the moment map
 (:func:`boundary_potential`, ``T = c/4 - c z^2 q``), and its Virasoro orbit is
 classified (:func:`classify_metric`). :func:`cone_metric` solves disks with
-several cone points two independent ways (:func:`compare_methods`).
+several cone points two independent ways (:func:`compare_methods`), and
+:func:`check_root` tests that method B's root is the metric's (its developing
+map keeps one half-plane; :func:`developing_u` is the metric it defines).
 
 >>> from hamcheck import hyperbolic
 >>> d = hyperbolic.classify_metric(hyperbolic.cone_disk(3.0), c=1.0)
@@ -17,6 +19,7 @@ from .accessory import AccessorySolution, solve_accessory
 from .boundary import BoundaryPotential, boundary_potential, classify_metric, residues_from_u
 from .chart import Chart, two_cone_chart
 from .cone_metrics import Agreement, compare_methods, cone_metric, method_a
+from .developing import RootCheck, check_root, developing_u
 from .liouville import LiouvilleSolution, solve_liouville
 from .metric import Metric, cone_disk, poincare_disk, poincare_distance
 from .quadratic import AccessoryFamily, RationalQ
@@ -24,7 +27,8 @@ from .validation import check_metric
 
 __all__ = [
     "AccessoryFamily", "AccessorySolution", "Agreement", "BoundaryPotential", "Chart", "Cone", "Estimate",
-    "LiouvilleSolution", "Metric", "RationalQ", "boundary_potential", "check_metric", "classify_metric",
-    "compare_methods", "cone_disk", "cone_metric", "method_a", "poincare_disk", "poincare_distance",
+    "LiouvilleSolution", "Metric", "RationalQ", "RootCheck", "boundary_potential", "check_metric", "check_root",
+    "classify_metric", "compare_methods", "cone_disk", "cone_metric", "developing_u", "method_a", "poincare_disk",
+    "poincare_distance",
     "residues_from_u", "solve_accessory", "solve_liouville", "two_cone_chart",
 ]

@@ -24,6 +24,7 @@ from scipy.optimize import least_squares
 
 from ..errors import ConvergenceError
 from ._common import Cone, as_cones
+from .developing import RootCheck, check_root
 from .paths import PROPAGATOR_TOL, Circle, Propagator, Segment, boundary_frame, chain, propagate
 from .quadratic import AccessoryFamily, RationalQ
 
@@ -35,6 +36,9 @@ REALITY_TOL = 1e-10
 #: cones (s = 0.02) showed a spurious root from the direct start; 6 stages
 #: follow the right branch there.
 CONTINUATION = (1 / 6, 2 / 6, 3 / 6, 4 / 6, 5 / 6, 1.0)
+
+#: The second attempt when the first root fails :func:`.developing.check_root`.
+FINE_CONTINUATION = tuple(np.arange(1, 25) / 24)
 
 
 @dataclass(frozen=True)
@@ -109,6 +113,7 @@ class AccessorySolution:
     traces: tuple = ()
     evaluations: int = 0
     seconds: float = 0.0
+    root: RootCheck | None = None  # the developing map's half-plane test (None: no free parameter)
 
     def __repr__(self) -> str:
         return (f"AccessorySolution({len(self.cones)} cones, b={np.round(self.b, 10).tolist()}, "
@@ -150,6 +155,18 @@ def _project(family, b):
                            np.concatenate([(b - family.b_part).real, (b - family.b_part).imag]), rcond=None)[0]
 
 
+def _continued(cones, stages, tol):
+    """Follow the root from q = 0 at angles 2 pi to the cones' angles through ``stages``."""
+    b, nev = None, 0
+    for s in stages:
+        stage = tuple(Cone(c.p, 2 * np.pi + s * (c.alpha - 2 * np.pi)) for c in cones)
+        fam_s = AccessoryFamily.of(stage)
+        x, J, r, perr, traces, n = _solve(fam_s, fam_s.guess() if b is None else _project(fam_s, b), tol)
+        nev += n
+        b = fam_s.residues(x)
+    return fam_s, (x, J, r, perr, traces, nev)
+
+
 def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> AccessorySolution:
     """Method B for cone points ``[(p, alpha), ...]`` with angles below 2 pi.
 
@@ -158,30 +175,41 @@ def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> Access
     is followed by continuation in the angles from 2 pi, where q = 0 and the
     root is the trivial one (stages :data:`CONTINUATION`). ``start``: residues
     of a nearby configuration (e.g. a neighbouring chart cell) to start from
-    instead, skipping the continuation.
+    instead, skipping the continuation. Every root is tested directly
+    (:func:`.developing.check_root`: the developing map must keep one
+    half-plane); a spurious one sends the solver back to continuation, then to
+    :data:`FINE_CONTINUATION`, and a ConvergenceError if that fails too.
     """
     t0 = time.perf_counter()
     cones = as_cones(cones, below_two_pi=True)
     family = AccessoryFamily.of(cones)
-    nev = 0
-    if not family.dim:
+    nev, root = 0, None
+    if not family.dim:  # no free parameter: q is determined, there is no other root
         x, J, r, perr, traces, nev = _solve(family, np.zeros(0), tol)
-    elif start is not None:
-        x, J, r, perr, traces, nev = _solve(family, _project(family, np.asarray(start, complex)), tol)
     else:
-        b = None
-        for s in CONTINUATION:
-            stage = tuple(Cone(c.p, 2 * np.pi + s * (c.alpha - 2 * np.pi)) for c in cones)
-            fam_s = AccessoryFamily.of(stage)
-            x, J, r, perr, traces, n = _solve(fam_s, fam_s.guess() if b is None else _project(fam_s, b), tol)
+        attempts = ([("start", None)] if start is not None else []) + [("continue", CONTINUATION), ("continue", FINE_CONTINUATION)]
+        for how, stages in attempts:
+            if how == "start":
+                x, J, r, perr, traces, n = _solve(family, _project(family, np.asarray(start, complex)), tol)
+            else:  # the last stage's family: its angles equal the cones' up to rounding, and x is in its basis
+                family, (x, J, r, perr, traces, n) = _continued(cones, stages, tol)
             nev += n
-            b = fam_s.residues(x)
-        family = fam_s
+            root = check_root(family.q(x), cones, tol=tol)
+            if root.hyperbolic or float(np.abs(r).max(initial=0.0)) > 1e3 * REALITY_TOL:
+                break
     resid = float(np.abs(r).max(initial=0.0))
     if resid > 1e3 * REALITY_TOL:
         raise ConvergenceError(
             f"method B found no accessory parameters with real monodromy for {list(cones)} "
             f"(best imaginary part {resid:.1e}); the cone points may be too close to each other or to the boundary"
+        )
+    if root is not None and not root.hyperbolic:
+        z = root.wrong_sign[0]
+        raise ConvergenceError(
+            f"method B reached only spurious roots for {list(cones)}: real monodromy, but the developing map leaves "
+            f"its half-plane (Im(y1 conj y2) changes sign at {len(root.wrong_sign)} of {root.points} probe points, "
+            f"e.g. z = {z.real:.4f}{z.imag:+.4f}i), even with {len(FINE_CONTINUATION)} continuation stages; "
+            "method A (solve_liouville) does not have this ambiguity"
         )
     # error of x: the least-squares Jacobian turns residual and propagator error into a parameter error
     if family.dim:
@@ -191,4 +219,4 @@ def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> Access
     else:
         eb = 0.0
     return AccessorySolution(cones, family, x, family.residues(x), family.q(x), resid, eb, tuple(traces), nev,
-                             time.perf_counter() - t0)
+                             time.perf_counter() - t0, root)
