@@ -263,7 +263,7 @@ def _combinations(grid) -> tuple[tuple, list[dict]]:
     return names, combos
 
 
-def _check_member(build, params, kwargs):
+def _check_member(build, params, kwargs, scope=None):
     """Build and check one member of the family (here or on a worker); plain data out."""
     from .checks._family import Family
     from .model import Model
@@ -276,7 +276,7 @@ def _check_member(build, params, kwargs):
         return {"params": params, "error": f"build raised {type(exc).__name__}: {' '.join(str(exc).split())[:200]}"}
     if not isinstance(model, Model):
         return {"params": params, "error": f"build returned {type(model).__name__}; expected a hamcheck.Model"}
-    family = Family(build, params)
+    family = Family(build, params, scope)
     report = check(model, **kwargs, _family=family)
     if not family.traced_names:
         programs = "one per member: no float parameter to trace"
@@ -286,7 +286,10 @@ def _check_member(build, params, kwargs):
 
 
 def _check_members(build, params_list, kwargs):
-    return [_check_member(build, p, kwargs) for p in params_list]
+    from .checks._family import Scope
+
+    scope = Scope()  # one task's members share programs
+    return [_check_member(build, p, kwargs, scope) for p in params_list]
 
 
 def _on_client(client, build, combos, kwargs) -> list:
@@ -346,7 +349,7 @@ def sweep(build, grid, *, points: int = 32, seed: int = 0, only=None, tolerances
     kwargs = {"points": points, "seed": seed, "only": only, "tolerances": tolerances, "settings": settings}
     t0 = time.perf_counter()
     if client is None:
-        results = [_check_member(build, p, kwargs) for p in combos]
+        results = _check_members(build, combos, kwargs)
     else:
         results = _on_client(client, build, combos, kwargs)
     build_name = getattr(build, "__name__", "build")

@@ -184,3 +184,22 @@ def test_a_shared_degeneracy_search_still_finds_each_members_degenerate_line():
         assert abs(alone.worst_point[0] - row.params["a"]) < 1e-6  # the member's own line
         assert row.residual["nondegenerate"] < 0.1 * row.tolerance["nondegenerate"]  # well past the tolerance
         assert row.residual["nondegenerate"] == pytest.approx(alone.residual, rel=1e-6, abs=1e-14)
+
+
+SCALE = {"w": 1.0}  # a global the family reads: changing it between sweeps must change the results
+
+
+def test_programs_do_not_outlive_their_sweep():
+    # planted: the same build function, a global changed between two sweeps (a notebook cell edited and rerun);
+    # a program kept on the build function would still carry the old value
+    def family(s):
+        return rotating_plane(1, s, SCALE["w"])
+
+    first = sweep(family, {"s": [1.0, 2.0]}, **KW)
+    SCALE["w"] = 2.0
+    try:
+        second = sweep(family, {"s": [1.0, 2.0]}, **KW)
+    finally:
+        SCALE["w"] = 1.0
+    assert [r.passed for r in first] == [True, False]
+    assert [r.passed for r in second] == [False, True]

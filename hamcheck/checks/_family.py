@@ -37,7 +37,7 @@ import numpy as np
 from .. import cache
 from .._jax import jax, jnp
 
-__all__ = ["Family", "compile_for"]
+__all__ = ["Family", "Scope", "compile_for"]
 
 # (family, model) while check(model, _family=family) runs: the small programs a check's
 # judging compiles (the degeneracy search) are then shared by the family too.
@@ -48,12 +48,26 @@ def _is_float(v) -> bool:
     return isinstance(v, (float, np.floating)) and not isinstance(v, bool)
 
 
+class Scope:
+    """Owner of a family's shared programs for one sweep: they die with it.
+
+    Keyed on ``build`` itself, a program would outlive the sweep and serve the next
+    one, even after a global that ``build`` reads was changed (a notebook cell
+    edited and rerun); a fresh scope per sweep makes that impossible. Across
+    sweeps, jax's persistent cache (keyed on the program text) still serves them.
+    """
+
+
 @dataclass(frozen=True, repr=False)
 class Family:
-    """One member of ``build``'s family: ``params`` split into traced floats and static values."""
+    """One member of ``build``'s family: ``params`` split into traced floats and static values.
+
+    ``scope`` owns the shared programs (:class:`Scope`, one per sweep); None: ``build``.
+    """
 
     build: object
     params: dict
+    scope: object = None
     traced_names: tuple = field(init=False)
     static: tuple = field(init=False)
     theta: np.ndarray = field(init=False)
@@ -63,6 +77,10 @@ class Family:
         object.__setattr__(self, "traced_names", names)
         object.__setattr__(self, "static", tuple((k, v) for k, v in self.params.items() if k not in names))
         object.__setattr__(self, "theta", np.array([float(self.params[k]) for k in names], dtype=np.float64))
+
+    @property
+    def owner(self):
+        return self.build if self.scope is None else self.scope
 
     def __repr__(self) -> str:
         return f"Family({getattr(self.build, '__name__', 'build')}: traced {list(self.traced_names)}, static {dict(self.static)})"
@@ -78,7 +96,7 @@ class Family:
         if not self.traced_names:
             return False
         try:
-            weakref.ref(self.build)
+            weakref.ref(self.owner)
         except TypeError:
             return False
         return self.refusal is None
@@ -87,14 +105,14 @@ class Family:
     def refusal(self) -> str | None:
         """Why members of this shape get programs of their own, once a traced build failed."""
         try:
-            return cache.compiled(self.build, ("refused",) + self.key, lambda _b: [None])[0]
+            return cache.compiled(self.owner, ("refused",) + self.key, lambda _b: [None])[0]
         except TypeError:  # not weakly referenceable: never shared
             return "build cannot be held by the cache (not weakly referenceable)"
 
     def refuse(self, exc: Exception) -> None:
         text = " ".join(str(exc).split())[:160]
         reason = f"build(**params) could not take traced {', '.join(self.traced_names)} ({type(exc).__name__}: {text})"
-        cache.compiled(self.build, ("refused",) + self.key, lambda _b: [None])[0] = reason
+        cache.compiled(self.owner, ("refused",) + self.key, lambda _b: [None])[0] = reason
 
     @contextlib.contextmanager
     def active(self, model):
@@ -134,7 +152,7 @@ def compile_for(model, key, make, specs, options=None):
                 fn = jax.jit(lambda th, *args: make(family.member(th))(*args))
                 return cache.compile_lowered(fn.lower(jax.ShapeDtypeStruct(theta.shape, theta.dtype), *specs), options)
 
-            prog = cache.compiled(family.build, key + family.key + (theta.shape,), lower)
+            prog = cache.compiled(family.owner, key + family.key + (theta.shape,), lower)
             return lambda *args: prog(theta, *args)
         except Exception as exc:
             family.refuse(exc)

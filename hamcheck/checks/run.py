@@ -193,7 +193,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
     options = FAST_COMPILE if settings.fast_compile else None
 
     def run_all(groups, shared):
-        owner = family.build if shared else model
+        owner = family.owner if shared else model
         theta = jnp.asarray(family.theta) if shared else None
 
         def lowered(names):
