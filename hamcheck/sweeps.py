@@ -263,7 +263,7 @@ def _combinations(grid) -> tuple[tuple, list[dict]]:
     return names, combos
 
 
-def _check_member(build, params, kwargs, scope=None):
+def _check_member(build, params, kwargs, scope):
     """Build and check one member of the family (here or on a worker); plain data out."""
     from .checks._family import Family
     from .model import Model
@@ -295,11 +295,11 @@ def _check_members(build, params_list, kwargs):
 def _on_client(client, build, combos, kwargs) -> list:
     """The members in two tasks per worker, members of one shape together: each task unpickles
     ``build`` once, so its members share compiled programs as they do here."""
-    from .checks._family import Family
+    from .checks._family import shape_key
     from .distributed import gather_in_order
 
     workers = max(1, len(client.scheduler_info().get("workers", {})))
-    order = sorted(range(len(combos)), key=lambda i: Family(build, combos[i]).key)
+    order = sorted(range(len(combos)), key=lambda i: shape_key(combos[i]))
     chunks = [list(c) for c in np.array_split(order, min(len(combos), 2 * workers)) if len(c)]
     futures = [client.submit(_check_members, build, [combos[i] for i in ch], kwargs, pure=False) for ch in chunks]
     results = [None] * len(combos)

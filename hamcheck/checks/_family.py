@@ -19,8 +19,7 @@ while tracing; the family is then marked *per member* with that reason and
 every member is checked exactly as ``check(model)`` would, compiling its own
 program. Nothing is lost but time, and the sweep says which happened.
 
->>> import numpy as np
->>> fam = Family(lambda s, n: None, {"s": 0.5, "n": 3})
+>>> fam = Family(lambda s, n: None, {"s": 0.5, "n": 3}, Scope())
 >>> fam.traced_names, fam.static, fam.theta
 (('s',), (('n', 3),), array([0.5]))
 """
@@ -29,7 +28,6 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
-import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -37,7 +35,7 @@ import numpy as np
 from .. import cache
 from .._jax import jax, jnp
 
-__all__ = ["Family", "Scope", "compile_for"]
+__all__ = ["Family", "Scope", "compile_for", "shape_key"]
 
 # (family, model) while check(model, _family=family) runs: the small programs a check's
 # judging compiles (the degeneracy search) are then shared by the family too.
@@ -58,16 +56,22 @@ class Scope:
     """
 
 
+def shape_key(params) -> tuple:
+    """What besides array shapes tells programs of one family apart: the static values and traced names."""
+    static = tuple((k, repr(v)) for k, v in params.items() if not _is_float(v))
+    return ("family", static, tuple(k for k, v in params.items() if _is_float(v)))
+
+
 @dataclass(frozen=True, repr=False)
 class Family:
     """One member of ``build``'s family: ``params`` split into traced floats and static values.
 
-    ``scope`` owns the shared programs (:class:`Scope`, one per sweep); None: ``build``.
+    ``scope`` (a :class:`Scope`, one per sweep) owns the programs the members share.
     """
 
     build: object
     params: dict
-    scope: object = None
+    scope: Scope
     traced_names: tuple = field(init=False)
     static: tuple = field(init=False)
     theta: np.ndarray = field(init=False)
@@ -78,41 +82,30 @@ class Family:
         object.__setattr__(self, "static", tuple((k, v) for k, v in self.params.items() if k not in names))
         object.__setattr__(self, "theta", np.array([float(self.params[k]) for k in names], dtype=np.float64))
 
-    @property
-    def owner(self):
-        return self.build if self.scope is None else self.scope
-
     def __repr__(self) -> str:
         return f"Family({getattr(self.build, '__name__', 'build')}: traced {list(self.traced_names)}, static {dict(self.static)})"
 
-    @property
-    def key(self) -> tuple:
-        """What besides shapes tells programs of the family apart: the static values and traced names."""
-        return ("family", tuple((k, repr(v)) for k, v in self.static), self.traced_names)
+    def program_key(self, key: tuple) -> tuple:
+        """``key`` of a program, made the family's: static values, traced names, the length of theta."""
+        return key + shape_key(self.params) + (self.theta.shape,)
 
     @property
     def shareable(self) -> bool:
-        """Some parameter to trace, a ``build`` the cache can hold weakly, and no refusal recorded."""
-        if not self.traced_names:
-            return False
-        try:
-            weakref.ref(self.owner)
-        except TypeError:
-            return False
-        return self.refusal is None
+        """Some parameter to trace and no refusal recorded for this shape."""
+        return bool(self.traced_names) and self.refusal is None
+
+    def _refusals(self) -> list:
+        # a one-slot list held by the scope: refuse() fills it, every later member of the shape reads it
+        return cache.compiled(self.scope, ("refused",) + shape_key(self.params), lambda _scope: [None])
 
     @property
     def refusal(self) -> str | None:
         """Why members of this shape get programs of their own, once a traced build failed."""
-        try:
-            return cache.compiled(self.owner, ("refused",) + self.key, lambda _b: [None])[0]
-        except TypeError:  # not weakly referenceable: never shared
-            return "build cannot be held by the cache (not weakly referenceable)"
+        return self._refusals()[0]
 
     def refuse(self, exc: Exception) -> None:
         text = " ".join(str(exc).split())[:160]
-        reason = f"build(**params) could not take traced {', '.join(self.traced_names)} ({type(exc).__name__}: {text})"
-        cache.compiled(self.owner, ("refused",) + self.key, lambda _b: [None])[0] = reason
+        self._refusals()[0] = f"build(**params) could not take traced {', '.join(self.traced_names)} ({type(exc).__name__}: {text})"
 
     @contextlib.contextmanager
     def active(self, model):
@@ -152,7 +145,7 @@ def compile_for(model, key, make, specs, options=None):
                 fn = jax.jit(lambda th, *args: make(family.member(th))(*args))
                 return cache.compile_lowered(fn.lower(jax.ShapeDtypeStruct(theta.shape, theta.dtype), *specs), options)
 
-            prog = cache.compiled(family.owner, key + family.key + (theta.shape,), lower)
+            prog = cache.compiled(family.scope, family.program_key(key), lower)
             return lambda *args: prog(theta, *args)
         except Exception as exc:
             family.refuse(exc)

@@ -193,7 +193,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
     options = FAST_COMPILE if settings.fast_compile else None
 
     def run_all(groups, shared):
-        owner = family.owner if shared else model
+        owner = family.scope if shared else model
         theta = jnp.asarray(family.theta) if shared else None
 
         def lowered(names):
@@ -217,7 +217,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
             # one compiled program per model (or family) and layout: re-checking with another seed reuses it
             key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
             if shared:
-                key += family.key + (theta.shape,)
+                key = family.program_key(key)
             return key, lambda: jax.jit(program).lower(th_spec, *spec)
 
         keyed = [lowered(names) for names in groups]

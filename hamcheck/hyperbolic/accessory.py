@@ -177,8 +177,8 @@ def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> Access
     of a nearby configuration (e.g. a neighbouring chart cell) to start from
     instead, skipping the continuation. Every root is tested directly
     (:func:`.developing.check_root`: the developing map must keep one
-    half-plane); a spurious one sends the solver back to continuation, then to
-    :data:`FINE_CONTINUATION`, and a ConvergenceError if that fails too.
+    half-plane); a spurious root, or none, sends the solver on to continuation,
+    then to :data:`FINE_CONTINUATION`, and a ConvergenceError if that fails too.
     """
     t0 = time.perf_counter()
     cones = as_cones(cones, below_two_pi=True)
@@ -187,16 +187,18 @@ def solve_accessory(cones, *, tol: float = PROPAGATOR_TOL, start=None) -> Access
     if not family.dim:  # no free parameter: q is determined, there is no other root
         x, J, r, perr, traces, nev = _solve(family, np.zeros(0), tol)
     else:
-        attempts = ([("start", None)] if start is not None else []) + [("continue", CONTINUATION), ("continue", FINE_CONTINUATION)]
-        for how, stages in attempts:
-            if how == "start":
-                x, J, r, perr, traces, n = _solve(family, _project(family, np.asarray(start, complex)), tol)
-            else:  # the last stage's family: its angles equal the cones' up to rounding, and x is in its basis
-                family, (x, J, r, perr, traces, n) = _continued(cones, stages, tol)
+        # each attempt gives (family, solve result); a continuation's family is its last stage's (angles equal
+        # to the cones' up to rounding, and x is in its basis)
+        attempts = [lambda: _continued(cones, CONTINUATION, tol), lambda: _continued(cones, FINE_CONTINUATION, tol)]
+        if start is not None:
+            attempts.insert(0, lambda: (family, _solve(family, _project(family, np.asarray(start, complex)), tol)))
+        for attempt in attempts:
+            family, (x, J, r, perr, traces, n) = attempt()
             nev += n
-            root = check_root(family.q(x), cones, tol=tol)
-            if root.hyperbolic or float(np.abs(r).max(initial=0.0)) > 1e3 * REALITY_TOL:
-                break
+            if float(np.abs(r).max(initial=0.0)) <= 1e3 * REALITY_TOL:  # real monodromy: is it the metric's root?
+                root = check_root(family.q(x), cones, tol=tol)
+                if root.hyperbolic:
+                    break
     resid = float(np.abs(r).max(initial=0.0))
     if resid > 1e3 * REALITY_TOL:
         raise ConvergenceError(
