@@ -15,7 +15,9 @@ import scipy.linalg
 import hamcheck
 from hamcheck import Convention, LieAlgebra, Model, virasoro
 from hamcheck._jax import jax, jnp
-from hamcheck.checks.hamiltonian_flow import CHECK, FLOW_ERROR_TARGET, FLOW_MAX_STEPS, FLOW_TRUST_FACTOR, integrate
+from hamcheck.checks.hamiltonian_flow import (
+    CHECK, FLOW_ERROR_TARGET, FLOW_MAX_STEPS, FLOW_TRUST_FACTOR, ORDER, TABLEAU_A, TABLEAU_B, integrate,
+)
 from hamcheck.diagnose import Evidence
 
 
@@ -23,6 +25,21 @@ def test_name_stays_flow_and_statement_follows_the_convention():
     assert CHECK.name == "flow" and "flow" in hamcheck.CHECK_NAMES
     assert "is exp(t xi).x" in CHECK.state((1, 1)) and "is exp(-t xi).x" in CHECK.state((1, -1))
     assert "= -d_j <mu, xi>" in CHECK.state((-1, 1))
+
+
+def test_tableau_is_scipys_dop853_digit_for_digit():
+    # reference: scipy.integrate.DOP853 (Hairer, Norsett, Wanner 1993, sec. II.10); the copy in
+    # hamcheck/checks/_dop853.py saves importing scipy.integrate at start-up
+    from scipy.integrate import DOP853
+
+    s = DOP853.n_stages
+    assert ORDER == DOP853.order == 8
+    assert np.array_equal(TABLEAU_A, DOP853.A[:s, :s]) and np.array_equal(TABLEAU_B, DOP853.B[:s])
+    # consistency of any Runge-Kutta method (common practice): weights sum to 1, order conditions
+    assert abs(TABLEAU_B.sum() - 1) < 1e-14
+    c = TABLEAU_A.sum(axis=1)
+    for q in range(1, ORDER + 1):  # bushy-tree conditions sum_i b_i c_i^(q-1) = 1/q
+        assert abs(TABLEAU_B @ c ** (q - 1) - 1 / q) < 1e-13
 
 
 def test_error_target_sits_100x_below_the_tolerance():

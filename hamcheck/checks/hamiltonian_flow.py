@@ -28,6 +28,7 @@ import numpy as np
 from .._fields import hamiltonian_field
 from .._jax import jax, jnp
 from ..diagnose import Diagnosis, at
+from . import _dop853
 from ._base import TINY, Check, Tolerance, row_relative, signed
 
 #: Arc of the comparison, |t xi| in matrix norm: long enough that a backwards flow moves the point
@@ -55,18 +56,18 @@ def statement(sign: int, flow: int) -> str:
     )
 
 
-def _dop853():
-    """Dormand and Prince's explicit Runge-Kutta pair of order 8 (Hairer, Norsett and Wanner, *Solving
-    Ordinary Differential Equations I*, 2nd ed., 1993, sec. II.10), its 12 stages taken as data from
-    ``scipy.integrate.DOP853`` (``A``, ``B``, ``C``); only the order-8 solution is used."""
-    from scipy.integrate import DOP853
-
-    s = DOP853.n_stages
-    return np.asarray(DOP853.A[:s, :s], float), np.asarray(DOP853.B[:s], float), DOP853.order
+def _stage_matrix(rows):
+    A = np.zeros((len(rows), len(rows)))
+    for i, row in enumerate(rows):
+        for j, a in row.items():
+            A[i, j] = a
+    return A
 
 
-#: The Butcher tableau of the integrator (stage matrix, weights) and its order.
-TABLEAU_A, TABLEAU_B, ORDER = _dop853()
+#: The Butcher tableau of the integrator (stage matrix, weights) and its order: Dormand and
+#: Prince's order-8 method (Hairer, Norsett and Wanner, *Solving Ordinary Differential
+#: Equations I*, 2nd ed., 1993, sec. II.10), as data in ``_dop853.py``.
+TABLEAU_A, TABLEAU_B, ORDER = _stage_matrix(_dop853.A_ROWS), np.asarray(_dop853.B), _dop853.ORDER
 
 
 def runge_kutta(field, x, t, n):
