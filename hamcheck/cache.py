@@ -8,14 +8,22 @@ Two layers:
   programs, and a model that is garbage-collected takes its programs with it.
   :func:`memoized` is ``functools.lru_cache`` registered here, for caches keyed
   on plain values (chart shapes of a resolution study).
-* **On disk, across processes.** jax's persistent compilation cache, in a
-  per-user folder (``$XDG_CACHE_HOME/hamcheck/jax``, else
-  ``~/.cache/hamcheck/jax``). ``HAMCHECK_CACHE_DIR=/some/folder`` names another
-  folder and ``HAMCHECK_CACHE_DIR=`` (empty) turns it off. A program is found
-  again only when its lowered HLO, compile options, jax version and devices are
-  identical, so a changed model never gets a stale program. A folder that
-  cannot be written, or an entry that cannot be read, gives one warning and the
-  cache is then ignored for the rest of the process.
+* **On disk, across processes**, in a per-user folder (``$XDG_CACHE_HOME/hamcheck/jax``,
+  else ``~/.cache/hamcheck/jax``); ``HAMCHECK_CACHE_DIR=/some/folder`` names another
+  folder and ``HAMCHECK_CACHE_DIR=`` (empty) turns both off:
+
+  - jax's persistent compilation cache. A program is found again only when its
+    lowered HLO, compile options, jax version and devices are identical, so a
+    changed model never gets a stale program; but finding it still costs tracing
+    and lowering.
+  - :func:`stored_program` (subfolder ``programs``): compiled check programs under a
+    digest of everything they are made of (``checks/_fingerprint.py``: hamcheck's
+    code, the jaxprs of the model's functions with every constant, the layout), so
+    re-checking an unchanged model in a new process skips tracing, lowering and
+    compiling.
+
+  A folder that cannot be written, or an entry that cannot be read, gives one
+  warning and the cache is then ignored for the rest of the process.
 
 Clear both with ``hamcheck.cache.clear(disk=True)`` or by deleting the folder
 (``hamcheck.cache.persistent_cache_dir()`` prints where it is).
@@ -34,6 +42,8 @@ from __future__ import annotations
 
 import functools
 import os
+import pickle
+import re
 import shutil
 import uuid
 import warnings
@@ -42,6 +52,7 @@ from pathlib import Path
 
 __all__ = [
     "CacheWarning", "clear", "compile_lowered", "compiled", "has_compiled", "memoized", "parallel_map", "persistent_cache_dir",
+    "store_program", "stored_program",
 ]
 
 ENV = "HAMCHECK_CACHE_DIR"
@@ -207,6 +218,95 @@ def _unreadable() -> None:
         f"the compilation cache in {folder} has an entry that cannot be read; going on without "
         f"the cache (clear it with hamcheck.cache.clear(disk=True) or delete the folder)"
     )
+
+
+#: Subfolder of hamcheck's cache folder holding compiled check programs under their digest.
+PROGRAMS = "programs"
+
+
+def _program_dir() -> Path | None:
+    """The program store: only inside a folder hamcheck owns (never a folder given to jax directly)."""
+    if _state["dir"] is None or not _state["owned"] or _state.get("store_off"):
+        return None
+    return Path(_state["dir"]) / PROGRAMS
+
+
+def _store_failed(what: str, exc: Exception) -> None:
+    _state["store_off"] = True
+    _warn_once(
+        f"the program store in {_state['dir']}/{PROGRAMS} {what} ({type(exc).__name__}: {exc}); "
+        "going on without it (clear it with hamcheck.cache.clear(disk=True) or delete the folder)"
+    )
+
+
+#: Custom calls a stored program may make: jax's CPU LAPACK kernels, prepared by :func:`_initialize_lapack`.
+_LAPACK = "lapack_"
+
+
+def _initialize_lapack() -> None:
+    """Load the LAPACK function pointers jax's CPU kernels call.
+
+    jax does this while lowering a linear-algebra operation; a program from the store
+    is not lowered, and its LAPACK calls would jump through null pointers (a crash,
+    measured: a stored ``eigh`` segfaults in a fresh process without this).
+    """
+    from ._jax import jax, jnp
+
+    try:
+        from jax._src.lax import linalg
+
+        linalg.initialize_lapack()
+    except (ImportError, AttributeError):  # pragma: no cover - another jax release: lower one solve instead
+        jax.jit(jnp.linalg.solve).lower(jnp.ones((1, 1)), jnp.ones((1,)))
+
+
+def stored_program(digest: str | None):
+    """The compiled program stored under ``digest``, or None (not stored, or no store).
+
+    The store keeps what jax's persistent cache cannot skip: jax looks a program up
+    by its lowered text, so a hit there still pays tracing and lowering (most of a
+    warm start). ``digest`` comes from ``checks/_fingerprint.py`` and covers
+    everything the program is made of; None (opaque code, a sweep's family) or no
+    store (``HAMCHECK_CACHE_DIR=``, a folder given to jax) gives None. An entry that
+    cannot be read empties the store and gives one :class:`CacheWarning`; the store is
+    then left alone for the rest of the process.
+    """
+    folder = _program_dir()
+    if digest is None or folder is None:
+        return None
+    path = folder / f"{digest}.xla"
+    if not path.is_file():
+        return None
+    from jax.experimental import serialize_executable
+
+    try:
+        serialized, in_tree, out_tree = pickle.loads(path.read_bytes())
+        _initialize_lapack()
+        return serialize_executable.deserialize_and_load(serialized, in_tree, out_tree)
+    except Exception as exc:  # a damaged entry: empty the store (other entries may be damaged too), say so once
+        shutil.rmtree(folder, ignore_errors=True)
+        _store_failed("had an entry that cannot be read", exc)
+        return None
+
+
+def store_program(digest: str | None, program) -> None:
+    """Keep ``program`` (a compiled jax program) under ``digest`` for :func:`stored_program`."""
+    folder = _program_dir()
+    if digest is None or folder is None:
+        return
+    from jax.experimental import serialize_executable
+
+    try:
+        targets = set(re.findall(r'custom_call_target="([^"]+)"', program.as_text() or ""))
+        if any(not t.startswith(_LAPACK) for t in targets):
+            return  # a custom call the store does not know how to prepare: compile it each time
+        blob = pickle.dumps(serialize_executable.serialize(program))
+        folder.mkdir(parents=True, exist_ok=True)
+        tmp = folder / f".{digest}.{uuid.uuid4().hex}.tmp"
+        tmp.write_bytes(blob)
+        os.replace(tmp, folder / f"{digest}.xla")  # atomic: a concurrent reader sees all of an entry or none
+    except Exception as exc:
+        _store_failed("cannot be written", exc)
 
 
 def compile_lowered(lowered, options=None):

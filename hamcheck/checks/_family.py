@@ -34,6 +34,7 @@ import numpy as np
 
 from .. import cache
 from .._jax import jax, jnp
+from ._fingerprint import program_digest
 
 __all__ = ["Family", "Scope", "compile_for", "shape_key"]
 
@@ -149,4 +150,12 @@ def compile_for(model, key, make, specs, options=None):
             return lambda *args: prog(theta, *args)
         except Exception as exc:
             family.refuse(exc)
-    return cache.compiled(model, key, lambda m: cache.compile_lowered(jax.jit(make(m)).lower(*specs), options))
+    def build(m):  # from the program store when this model was checked before, in any process
+        digest = program_digest(m, ("compile_for", key, repr(specs), repr(options)), None, builder=make)
+        prog = cache.stored_program(digest)
+        if prog is None:
+            prog = cache.compile_lowered(jax.jit(make(m)).lower(*specs), options)
+            cache.store_program(digest, prog)
+        return prog
+
+    return cache.compiled(model, key, build)

@@ -25,13 +25,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._jax import jax, jnp
-from ..cache import compile_lowered, compiled, has_compiled, parallel_map
+from ..cache import compile_lowered, compiled, has_compiled, parallel_map, store_program, stored_program
 from ..diagnose import Evidence
 from ..errors import UsageError
 from ..model import Model
 from ..numerics import FINITE_DIFFERENCE_TOLERANCES, TOLERANCES, Tolerances
 from ..report import CheckResult, Finding, Report
 from . import _registry
+from ._fingerprint import program_digest
 from ._shared import SharedPoint
 
 __all__ = ["check", "Settings", "replay_command"]
@@ -192,7 +193,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
     probes_p = _pad(probes, n_pad)
     options = FAST_COMPILE if settings.fast_compile else None
 
-    def run_all(groups, shared):
+    def run_all(groups, shared, use_store=True):
         owner = family.scope if shared else model
         theta = jnp.asarray(family.theta) if shared else None
 
@@ -221,10 +222,16 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
             return key, lambda: jax.jit(program).lower(th_spec, *spec)
 
         keyed = [lowered(names) for names in groups]
-        # lowered here in turn (tracing holds the GIL), compiled in parallel threads
-        todo = {key: lower() for key, lower in keyed if not has_compiled(owner, key)}
+        missing = [(key, lower) for key, lower in keyed if not has_compiled(owner, key)]
+        # an unchanged model checked before, in any process: its programs come from the store, untraced
+        digests = {key: None if shared or not (ours and use_store) else program_digest(model, key, settings) for key, _ in missing}
+        found = {key: prog for key in digests if (prog := stored_program(digests[key])) is not None}
+        # the rest lowered here in turn (tracing holds the GIL), compiled in parallel threads
+        todo = {key: lower() for key, lower in missing if key not in found}
         built = parallel_map(lambda low: compile_lowered(low, options), list(todo.values()), workers_available(settings))
-        found = dict(zip(todo, built))
+        for key, prog in zip(todo, built):
+            store_program(digests[key], prog)
+            found[key] = prog
         progs = [compiled(owner, key, lambda _owner, k=key: found[k]) for key, _ in keyed]
         parts = [
             (xs_p[w * chunk:(w + 1) * chunk], jax.tree_util.tree_map(lambda a: a[w * chunk:(w + 1) * chunk], probes_p))
@@ -242,6 +249,8 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
         return jax.tree_util.tree_map(lambda *a: np.concatenate(a)[:n], *outs)
 
     groups = _programs(checks_by_name or {}, list(kernels))
+    # the store sees hamcheck's code only: a kernel from elsewhere (a check registered at run time) keeps programs in memory
+    ours = all(getattr(k, "__module__", "").startswith("hamcheck.") for k in kernels.values())
     if family is not None and family.shareable:
         try:
             return run_all(groups, True), {}
@@ -252,9 +261,9 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
     except Exception:
         pass
     results, errors = {}, {}
-    for nm in kernels:
+    for nm in kernels:  # one kernel at a time, each traced and compiled here (never a stored program)
         try:
-            results[nm] = run_all([[nm]], False)[nm]
+            results[nm] = run_all([[nm]], False, use_store=False)[nm]
         except Exception as exc:
             errors[nm] = _first_line(exc)
     return results, errors

@@ -1,0 +1,114 @@
+"""The program store: compiled check programs found again under a digest of what they are made of.
+
+Facts relied on (common practice): a digest must change with every input of the program, or
+an unchanged-looking model is served a stale program; so every test here plants a change
+the digest has to see (one unit in the last place of a constant, a changed moment map).
+"""
+
+import os
+import subprocess
+import sys
+import textwrap
+
+import numpy as np
+import pytest
+
+from hamcheck import LieAlgebra, Model
+from hamcheck._jax import jax, jnp
+from hamcheck.checks._fingerprint import program_digest
+from hamcheck.checks.run import Settings
+
+ROT = np.array([[0.0, -1.0], [1.0, 0.0]])
+CIRCLE = LieAlgebra.from_matrices([ROT], names=["r"])
+
+
+def plane(form, moment=None):
+    """R^2 with its rotations; omega = dx ^ dy has mu = -(x^2 + y^2) / 2 (from memory: the harmonic oscillator)."""
+    return Model("plane", 2, form=form, algebra=CIRCLE,
+                 moment=moment or (lambda x: jnp.array([-(x[0] ** 2 + x[1] ** 2) / 2])),
+                 action=lambda g, x: g @ x)
+
+
+def digest(model):
+    return program_digest(model, ("checks", ("closed",)), Settings())
+
+
+def test_equal_models_share_a_digest_and_one_ulp_of_a_constant_changes_it():
+    J = np.array([[0.0, 1.0], [-1.0, 0.0]])
+    a, b = plane(lambda x: jnp.asarray(J)), plane(lambda x: jnp.asarray(J.copy()))
+    assert digest(a) is not None and digest(a) == digest(b)
+    J2 = J.copy()
+    J2[0, 1] = np.nextafter(1.0, 2.0)  # a closed-over array, one unit in the last place
+    assert digest(plane(lambda x: jnp.asarray(J2))) != digest(a)
+    k = np.nextafter(1.0, 2.0)  # a Python float: a literal of the jaxpr
+    assert digest(plane(lambda x: k * jnp.asarray(J))) != digest(plane(lambda x: 1.0 * jnp.asarray(J)))
+    # the moment map, the settings and the program key enter too
+    assert digest(plane(lambda x: jnp.asarray(J), lambda x: jnp.array([-(x[0] ** 2 + x[1] ** 2)]))) != digest(a)
+    assert program_digest(a, ("checks", ("closed",)), Settings(pairs=9)) != digest(a)
+    assert program_digest(a, ("checks", ("invariant",)), Settings()) != digest(a)
+
+
+def test_python_code_the_jaxpr_cannot_show_gets_no_digest():
+    @jax.custom_jvp
+    def scale(x):
+        return x
+
+    scale.defjvp(lambda primals, tangents: (primals[0], tangents[0]))  # a rule jax calls later: invisible
+    J = np.array([[0.0, 1.0], [-1.0, 0.0]])
+    assert digest(plane(lambda x: scale(x[0] * 0 + 1.0) * jnp.asarray(J))) is None
+    fd = Model("plane-fd", 2, form=lambda x: J, algebra=CIRCLE, moment=lambda x: np.array([-(x @ x) / 2]),
+               action=lambda g, x: g @ x, derivatives="finite-differences")
+    assert digest(fd) is None
+
+
+SCRIPT = textwrap.dedent('''
+    import sys, warnings
+    import jax.numpy as jnp
+    import numpy as np
+    import hamcheck
+    from hamcheck import cache
+    from hamcheck.checks import _family, run
+
+    calls = []
+    for mod in (run, _family.cache):
+        real = mod.compile_lowered
+        mod.compile_lowered = lambda low, options=None, real=real: calls.append(1) or real(low, options)
+    factor = float(sys.argv[1])
+    rot = np.array([[0.0, -1.0], [1.0, 0.0]])
+    model = hamcheck.Model(
+        "plane", 2, form=lambda x: jnp.array([[0.0, 1.0], [-1.0, 0.0]]),
+        algebra=hamcheck.LieAlgebra.from_matrices([rot], names=["r"]),
+        moment=lambda x: jnp.array([-factor * (x[0] ** 2 + x[1] ** 2) / 2]), action=lambda g, x: g @ x)
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        report = hamcheck.check(model, points=8)
+    print("PASSED", report.passed)
+    print("FAILING", [r.name for r in report.results.values() if r.status == "fail"])
+    print("COMPILES", len(calls))
+    for w in seen:
+        print("WARN", w.category.__name__, w.message)
+''')
+
+
+def _run(folder, factor):
+    env = dict(os.environ, HAMCHECK_CACHE_DIR=str(folder))
+    proc = subprocess.run([sys.executable, "-c", SCRIPT, str(factor)], capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr[-3000:]  # a stored LAPACK program once crashed a fresh process here
+    return proc.stdout
+
+
+@pytest.mark.slow
+def test_a_new_process_runs_stored_programs_and_never_a_stale_one(tmp_path):
+    folder = tmp_path / "cache"
+    first = _run(folder, 1.0)
+    assert "PASSED True" in first and "COMPILES 0" not in first and "WARN" not in first, first
+    stored = sorted((folder / "programs").iterdir())
+    assert stored, "nothing was stored"
+    again = _run(folder, 1.0)  # traced, lowered and compiled nothing: every program from the store
+    assert "PASSED True" in again and "COMPILES 0" in again and "WARN" not in again, again
+    planted = _run(folder, 2.0)  # the moment map doubled: another program, and the mistake is found
+    assert "PASSED False" in planted and "'moment_map'" in planted and "COMPILES 0" not in planted, planted
+    for entry in (folder / "programs").iterdir():  # damage every stored program
+        entry.write_bytes(b"garbage")
+    damaged = _run(folder, 1.0)
+    assert "PASSED True" in damaged and damaged.count("WARN CacheWarning") == 1 and "cannot be read" in damaged, damaged
