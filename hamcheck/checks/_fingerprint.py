@@ -112,10 +112,14 @@ def _closed(h, closed) -> None:
 
 def _model_digest(model) -> bytes | None:
     """The digest of what the kernels read from ``model``; None when part of it is opaque."""
-    if not model.traced:
+    from ..algebra import LieAlgebra
+    from ..model import Model
+
+    algebra = model.algebra
+    # a subclass may override form_at or Ad: code the digest does not see
+    if not model.traced or type(model) is not Model or type(algebra) is not LieAlgebra:
         return None
     h = hashlib.sha256()
-    algebra = model.algebra
     h.update(repr((model.dim, model.convention, model.derivatives, model.domain, type(algebra).__qualname__)).encode())
     try:
         for f in dataclasses.fields(algebra):  # declared fields only: lazily cached values would vary
