@@ -23,7 +23,8 @@ Two layers:
     compiling.
 
   A folder that cannot be written, or an entry that cannot be read, gives one
-  warning and the cache is then ignored for the rest of the process.
+  warning and that layer is then ignored for the rest of the process (a damaged
+  store is emptied first).
 
 Clear both with ``hamcheck.cache.clear(disk=True)`` or by deleting the folder
 (``hamcheck.cache.persistent_cache_dir()`` prints where it is).
@@ -117,6 +118,7 @@ def clear(disk: bool = False) -> None:
     if disk and _state["owned"] and folder is not None and Path(folder).is_dir():
         shutil.rmtree(folder, ignore_errors=True)
         Path(folder).mkdir(parents=True, exist_ok=True)
+        _state["store_off"] = False  # an emptied store is usable again
 
 
 def persistent_cache_dir() -> Path | None:
