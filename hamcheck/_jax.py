@@ -62,4 +62,20 @@ from .cache import configure_persistent_cache  # noqa: E402
 
 configure_persistent_cache(jax)
 
-__all__ = ["jax", "jnp", "single_threaded_lapack"]
+#: XLA options for the programs hamcheck compiles for a check: optimisation level 0
+#: without LLVM's expensive passes, and XLA's classic CPU emitters instead of its
+#: fusion emitters. Compiling, not running, is what a check of a small model waits
+#: for; IEEE semantics are unchanged (no fast-math). Measurements: ``checks.run.FAST_COMPILE``.
+QUICK_XLA = {
+    "xla_backend_optimization_level": 0,
+    "xla_llvm_disable_expensive_passes": True,
+    "xla_cpu_use_fusion_emitters": False,
+}
+
+
+def quick_jit(fun, **kwargs):
+    """``jax.jit(fun, compiler_options=QUICK_XLA)``: for small programs that run once or a few times."""
+    return jax.jit(fun, compiler_options=QUICK_XLA, **kwargs)
+
+
+__all__ = ["jax", "jnp", "single_threaded_lapack", "QUICK_XLA", "quick_jit"]

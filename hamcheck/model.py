@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._jax import jax, jnp
+from ._jax import jax, jnp, quick_jit
 from .algebra import LieAlgebra
 from .differentiation import AUTODIFF, FiniteDifferences
 from .errors import FrozenModelError, ModelError
@@ -500,8 +500,9 @@ class Model:
             if e is None or e.ndim != 1 or e.shape[0] < 1 or not real(e):
                 return False
             try:
-                # eagerly: jax keeps each operation's compiled kernel, so later models pay nothing
-                if not bool(jnp.all(jnp.isfinite(self.embedding(jnp.asarray(x0))))):
+                # one small program: evaluated eagerly, each jax operation compiled on its own
+                # (13 programs, 0.33 s for the sphere's two charts in a fresh process; jitted 0.10 s)
+                if not bool(quick_jit(lambda x: jnp.all(jnp.isfinite(self.embedding(x))))(x0)):
                     return False
             except Exception:
                 return False

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import QUICK_XLA, jax, jnp
 from ..cache import compile_lowered, compiled, has_compiled, parallel_map, store_program, stored_program
 from ..diagnose import Evidence
 from ..errors import UsageError
@@ -142,11 +142,7 @@ def _first_line(exc: Exception) -> str:
 #: residuals of the bundled models equal to round-off, measured 2026-12-04). The
 #: heavy work of large models is in BLAS/LAPACK calls these options do not touch.
 #: IEEE semantics are unchanged (no fast-math).
-FAST_COMPILE = {
-    "xla_backend_optimization_level": 0,
-    "xla_llvm_disable_expensive_passes": True,
-    "xla_cpu_use_fusion_emitters": False,
-}
+FAST_COMPILE = QUICK_XLA
 
 
 def _pad(tree, n_pad):
