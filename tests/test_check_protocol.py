@@ -79,3 +79,41 @@ def test_a_check_record_refuses_an_unknown_direction():
     with pytest.raises(hamcheck.UsageError, match="compare='sideways'"):
         Check("toy", statement, zero_diagonal, TOLERANCE, compare="sideways")
     assert repr(ZERO_DIAGONAL) == "Check(zero_diagonal: residual below 1e-12)"
+
+
+def test_prepare_runs_once_before_the_programs_compile_and_not_for_a_skipped_check(monkeypatch):
+    import dataclasses
+
+    from hamcheck import cache
+    from hamcheck.checks import run
+
+    events = []
+    real_compile = cache.compile_lowered
+    monkeypatch.setattr(run, "compile_lowered", lambda low, options=None: (events.append("compile"), real_compile(low, options))[1])
+    prepared = dataclasses.replace(ZERO_DIAGONAL, prepare=lambda model, settings: events.append(("prepare", model.name)))
+    monkeypatch.setattr(_registry, "CHECKS", _registry.CHECKS + (prepared,))
+    hamcheck.cache.clear()
+    model = _plane(0.0)
+    assert hamcheck.check(model, points=4, only=["zero_diagonal"]).passed
+    assert events[0] == ("prepare", model.name) and events.count(("prepare", model.name)) == 1 and "compile" in events
+    # a check that does not apply is not prepared
+    skipped = dataclasses.replace(prepared, applies=lambda model, settings: "planted reason")
+    monkeypatch.setattr(_registry, "CHECKS", _registry.CHECKS[:-1] + (skipped,))
+    events.clear()
+    report = hamcheck.check(model, points=4, only=["zero_diagonal"])
+    assert report.results["zero_diagonal"].status == "skip" and not any(e != "compile" for e in events)
+
+
+def test_import_in_background_imports_and_stays_quiet_on_a_missing_module():
+    import sys
+    import time
+
+    from hamcheck.checks._base import import_in_background
+
+    sys.modules.pop("colorsys", None)
+    import_in_background("colorsys")  # a small standard-library module nothing here imports
+    deadline = time.monotonic() + 10
+    while "colorsys" not in sys.modules and time.monotonic() < deadline:
+        time.sleep(0.01)
+    assert "colorsys" in sys.modules
+    import_in_background("hamcheck_no_such_module")  # raises nothing here; the importer that needs it will

@@ -103,6 +103,9 @@ class Check:
       outputs over all points (default ``outputs["residual"]``);
     * ``refine(model, points, residuals, outputs, settings) -> (points, residuals, note)``:
       an optional search beyond the samples (the degenerate-point search);
+    * ``prepare(model, settings)``: optional, called after the probes are drawn and
+      before the programs compile: start work the check will need later that can
+      overlap compilation (the degenerate-point search imports its optimiser);
     * ``own_program``: compile the kernel as a program of its own, in parallel with the
       program the other kernels share (for a kernel whose compilation dominates and
       which shares little with the others, such as the flow check's Runge-Kutta steps);
@@ -119,6 +122,7 @@ class Check:
     compare: str = "below"
     residuals: Callable = field(default=_plain_residual)
     refine: Callable | None = None
+    prepare: Callable | None = None
     own_program: bool = False
     finding_kinds: tuple[str, ...] = ()
     extra_tolerances: tuple[tuple[str, Tolerance], ...] = ()
@@ -152,6 +156,29 @@ def signed(s: int, term: str) -> str:
 
 
 # ------------------------------------------------------------ kernel helpers
+def import_in_background(module: str) -> None:
+    """Start importing ``module`` in a daemon thread, unless it is imported already.
+
+    XLA compiles without holding the GIL, so an import started before compilation
+    costs the wait nothing; a later ``import`` of the module waits for this one
+    (Python's module lock), and a failure here is met again, and reported, there.
+    """
+    import importlib
+    import sys
+    import threading
+
+    if module in sys.modules:
+        return
+
+    def load():
+        try:
+            importlib.import_module(module)
+        except Exception:  # noqa: BLE001 - the importer that needs it sees the error
+            pass
+
+    threading.Thread(target=load, name=f"hamcheck-import-{module}", daemon=True).start()
+
+
 def abs_matvec(A, v):
     return jnp.abs(A) @ jnp.abs(v)
 

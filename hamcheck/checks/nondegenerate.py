@@ -18,7 +18,7 @@ import numpy as np
 from .._jax import jax, jnp
 from ._family import compile_for
 from ..diagnose import Diagnosis, at
-from ._base import TINY, Check, Tolerance
+from ._base import TINY, Check, Tolerance, import_in_background
 
 
 def statement(sign: int, flow: int) -> str:
@@ -91,6 +91,12 @@ def relative_to_typical_scale(out) -> np.ndarray:
     finite = np.isfinite(smax)
     typical = np.median(smax[finite]) if finite.any() else 1.0
     return smin / np.maximum(np.maximum(smax, typical), np.finfo(float).tiny)
+
+
+def prepare(model, settings):
+    """Import the search's optimiser (``scipy.optimize``, 0.15-0.2 s) while the checks compile."""
+    if settings.search_starts > 0:
+        import_in_background("scipy.optimize")
 
 
 def search_degenerate(model, pts, r, out, settings):
@@ -234,6 +240,6 @@ def diagnose(ev) -> Diagnosis:
 
 CHECK = Check(
     "nondegenerate", statement, nondegenerate, TOLERANCE, diagnose=diagnose, compare="above",
-    residuals=relative_to_typical_scale, refine=search_degenerate, finding_kinds=("degenerate",),
+    residuals=relative_to_typical_scale, refine=search_degenerate, prepare=prepare, finding_kinds=("degenerate",),
     extra_tolerances=(("ill_conditioned", ILL_CONDITIONED),),
 )

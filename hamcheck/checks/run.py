@@ -377,6 +377,9 @@ def check(
             continue
         kernels[c.name] = c.kernel
         probes[c.name] = c.probes(model, _check_rng(seed, c.name), n, settings) if n else {}
+    for c in selected:
+        if c.name in kernels and c.prepare is not None and n:
+            c.prepare(model, settings)
 
     errors: dict[str, str] = {}
     point_faults: dict[str, list] = {}
