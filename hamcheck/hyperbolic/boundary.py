@@ -19,7 +19,7 @@ import dataclasses
 import numpy as np
 
 from .. import circle, virasoro
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import UsageError
 from ._common import as_cones, check_c
 from .quadratic import AccessoryFamily
@@ -66,8 +66,8 @@ def residues_from_u(u, cones, radius_factor: float = 0.5, n: int = 256):
     ``(b, change)``: the change between the radius and 0.6 x it estimates the error.
     """
     cones = as_cones(cones)
-    g = jax.jit(jax.vmap(jax.grad(lambda x, y: u(x, y), argnums=(0, 1))))
-    uu = jax.jit(jax.vmap(lambda x, y: u(x, y)))
+    g = quick_jit(jax.vmap(jax.grad(lambda x, y: u(x, y), argnums=(0, 1))))
+    uu = quick_jit(jax.vmap(lambda x, y: u(x, y)))
     th = 2 * np.pi * np.arange(n) / n
     sing = [c.p for c in cones] + [1 / np.conj(c.p) for c in cones if abs(c.p) > 1e-12]
     out, change = [], 0.0

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.linalg
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import ConvergenceError
 from ._common import as_cones
 
@@ -150,14 +150,31 @@ def _nodal_interpolant(v, N, M, shift):
     return ev
 
 
-def _delta(cones, j, kappa, chi, vals):
+def _delta_parts(cones, chi):
+    """What the shift of the regular part of u at each cone owes to the other cones, fixed by the cones alone.
+
+    ``base[j]``: half the sum of the other cones' log factors at ``p_j``;
+    ``at[i, j] = chi_i(p_j)`` (zero on the diagonal). Then :func:`_delta` is
+    ``base[j] + sum_i kappa_i at[i, j] + v(p_j)``: computed once, not at every
+    Newton step (each a handful of small jax evaluations).
+    """
+    n = len(cones)
+    base, at = np.zeros(n), np.zeros((n, n))
+    for j, c in enumerate(cones):
+        x, y = c.p.real, c.p.imag
+        if n > 1:
+            _, log_factors = background([o for i, o in enumerate(cones) if i != j])
+            base[j] = 0.5 * float(jnp.sum(log_factors(x, y)))
+        for i in range(n):
+            if i != j:
+                at[i, j] = float(chi[i](x, y))
+    return base, at
+
+
+def _delta(cones, j, kappa, parts, vals):
     """Shift of the regular part of u at cone j away from its one-cone value."""
-    c = cones[j]
-    x, y = c.p.real, c.p.imag
-    _, log_factors = background([o for i, o in enumerate(cones) if i != j])
-    d = 0.5 * float(jnp.sum(log_factors(x, y))) if len(cones) > 1 else 0.0
-    d += sum(float(kappa[i] * chi[i](x, y)) for i in range(len(cones)) if i != j)
-    return d + vals(c.p)
+    base, at = parts
+    return base[j] + float(kappa @ at[:, j]) + vals(cones[j].p)
 
 
 def _coefficients(v, N, M, shift):
@@ -207,14 +224,17 @@ def solve_liouville(cones, N: int = 41, M: int = 64, *, max_iter: int = 60, sing
     Y = (r[:, None] * np.sin(th)[None, :]).ravel()
     _, log_factors = background(cones)
     Xj, Yj = jnp.asarray(X), jnp.asarray(Y)
-    logPj = np.asarray(log_factors(Xj, Yj)).reshape(len(cones), -1)
+    # each evaluation below is one small program: evaluated eagerly, every jax operation of these
+    # closed forms (and of the Hessian in _laplacian) compiled on its own, hundreds in all
+    logPj = np.asarray(quick_jit(log_factors)(Xj, Yj)).reshape(len(cones), -1)
     P = np.exp(logPj.sum(axis=0))
     # Laplacian u0 = e^{2 u_P} (1 + sum_j (P_j - 1)): each one-cone factor solves Liouville exactly
     S = 1.0 + np.expm1(logPj).sum(axis=0)
     E = 4.0 / (1 - (X * X + Y * Y)) ** 2
     chi = [_chi(c) for c in cones]
-    Chi = np.array([np.asarray(jax.vmap(f)(Xj, Yj)) for f in chi]).reshape(len(cones), -1)
-    LChi = np.array([np.asarray(jax.vmap(_laplacian(f))(Xj, Yj)) for f in chi]).reshape(len(cones), -1)
+    Chi = np.array([np.asarray(quick_jit(jax.vmap(f))(Xj, Yj)) for f in chi]).reshape(len(cones), -1)
+    LChi = np.array([np.asarray(quick_jit(jax.vmap(_laplacian(f)))(Xj, Yj)) for f in chi]).reshape(len(cones), -1)
+    parts = _delta_parts(cones, chi) if singular and len(cones) > 1 else None
     kappa = np.zeros(len(cones))
     v = np.zeros_like(X)
     upd = change = np.inf
@@ -231,7 +251,7 @@ def solve_liouville(cones, N: int = 41, M: int = 64, *, max_iter: int = 60, sing
         upd = float(np.abs(dv).max())
         if singular and len(cones) > 1:
             vals = _nodal_interpolant(v, N, M, shift)
-            new = np.array([math.expm1(2 * _delta(cones, j, kappa, chi, vals)) for j in range(len(cones))])
+            new = np.array([math.expm1(2 * _delta(cones, j, kappa, parts, vals)) for j in range(len(cones))])
             change = float(np.abs(new - kappa).max())
             kappa = new
         else:

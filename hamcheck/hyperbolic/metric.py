@@ -19,7 +19,7 @@ import numpy as np
 from scipy.optimize import minimize
 from scipy.special import roots_jacobi
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import ModelError
 from ._common import TWO_PI, Cone, Estimate, as_cones, as_point
 
@@ -83,7 +83,7 @@ class Metric:
     # ----------------------------------------------------------- evaluation
     @functools.cached_property
     def _u_vec(self):
-        return jax.jit(jax.vmap(lambda x, y: self.u(x, y)))
+        return quick_jit(jax.vmap(lambda x, y: self.u(x, y)))
 
     def u_at(self, z) -> np.ndarray:
         """u at complex points (numpy in, numpy out)."""
@@ -146,7 +146,7 @@ def _path_length(u, z1, z2, e1, e2, K, n, start):
         ue = uv(zr, zi) - e1 * jnp.log(t) - e2 * jnp.log(1 - t)
         return jnp.sum(w * jnp.exp(ue) * speed)
 
-    f = jax.jit(jax.value_and_grad(length))
+    f = quick_jit(jax.value_and_grad(length))
     c0 = np.zeros(K)
     if start is not None:
         c0[: start.size] = start

@@ -24,7 +24,7 @@ import math
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..report import CheckResult, Finding, Report
 
 #: Liouville residual (relative, per point): autodiff second derivatives of
@@ -58,7 +58,7 @@ def _derivatives(u):
         h = H(x, y)
         return u(x, y), h[0][0], h[1][1]
 
-    return jax.jit(jax.vmap(f))
+    return quick_jit(jax.vmap(f))
 
 
 def liouville_residuals(u, z):
@@ -74,8 +74,8 @@ def measure_cone_angle(u, cone, others=(), n_angle: int = 64, n_radius: int = 40
     p = cone.p
     room = min([1 - abs(p)] + [abs(o.p - p) for o in others])
     th = 2 * np.pi * (np.arange(n_angle) + 0.5) / n_angle
-    grad = jax.jit(jax.vmap(jax.grad(lambda x, y: u(x, y), argnums=(0, 1))))
-    uv = jax.jit(jax.vmap(lambda x, y: u(x, y)))
+    grad = quick_jit(jax.vmap(jax.grad(lambda x, y: u(x, y), argnums=(0, 1))))
+    uv = quick_jit(jax.vmap(lambda x, y: u(x, y)))
     est = []
     for eps in (1e-3 * room, 2e-3 * room):
         z = p + eps * np.exp(1j * th)
@@ -103,7 +103,7 @@ def measure_cone_angle(u, cone, others=(), n_angle: int = 64, n_radius: int = 40
 def boundary_limit(u, rng, n_angle: int = 16, s: float = 1e-4):
     """Extrapolated ``lim (u + log(1 - r^2) - log 2)`` at the circle; (limit, error, raw defects)."""
     th = rng.uniform(0, 2 * np.pi, n_angle)
-    uv = jax.jit(jax.vmap(lambda x, y: u(x, y)))
+    uv = quick_jit(jax.vmap(lambda x, y: u(x, y)))
     ds = []
     for sk in (s, s / 2, s / 4):
         r = 1 - sk
