@@ -74,7 +74,11 @@ QUICK_XLA = {
 
 
 def quick_jit(fun, **kwargs):
-    """``jax.jit(fun, compiler_options=QUICK_XLA)``: for small programs that run once or a few times."""
+    """``jax.jit(fun, compiler_options=QUICK_XLA)``, for hamcheck's own top-level programs.
+
+    Only at the top level: jax refuses compiler options on a jit called inside
+    another jit, so a model's own functions are never wrapped with it.
+    """
     return jax.jit(fun, compiler_options=QUICK_XLA, **kwargs)
 
 

@@ -23,7 +23,7 @@ import numpy as np
 from .. import circle
 from ..circle.classification import format_classification
 from ..circle import TOLERANCES as CIRCLE
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import UsageError
 from .diffeomorphisms import _as_periodic, _check_c, schwarzian_from_derivatives
 from .tolerances import TOLERANCES
@@ -293,7 +293,7 @@ def potential_from_developing_map(f, c, M: int = 256) -> np.ndarray:
     c = _check_c(c)
     th = jnp.asarray(circle.grid(M))
 
-    @jax.jit
+    @quick_jit
     def S_of(t):
         g1 = jax.grad(f)
         g2 = jax.grad(g1)

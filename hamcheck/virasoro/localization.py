@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from .diffeomorphisms import _check_c
 from .orbit_chart import orbit_model
 
@@ -30,7 +30,7 @@ def rotation_weights(c, N: int, grid: int | None = None):
     model = orbit_model(c / 4, c, list(range(2, int(N) + 1)), grid=grid)
     x0 = jnp.zeros(model.dim)
     W = np.asarray(model.form(x0))
-    H = np.asarray(jax.jit(jax.hessian(lambda x: model.moment(x)[0]))(x0))
+    H = np.asarray(quick_jit(jax.hessian(lambda x: model.moment(x)[0]))(x0))
     ev = np.linalg.eigvals(np.linalg.solve(W, H))
     w = np.sort(np.abs(ev.imag))[::2]
     return w, np.linalg.eigvalsh(0.5 * (H + H.T))
