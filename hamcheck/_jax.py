@@ -73,13 +73,61 @@ QUICK_XLA = {
 }
 
 
+#: Above this many bytes of constants in one program, XLA's fusion emitters are kept: the classic
+#: ones write every constant into the generated code, and CP^256's check programs (its 537 MB torus
+#: basis, copied into each kernel that uses it) ran out of 24 GiB with them, where the fusion
+#: emitters peaked at 5.3 GB (measured 2026-12-04). Below it, compiling is what a check waits for.
+CLASSIC_EMITTERS_MAX_CONSTANTS = 16 * 2**20
+
+
+def constants_nbytes(closed_jaxpr) -> int:
+    """Bytes of the arrays a traced program closes over, in it and in every program it calls.
+
+    An array held by two of those programs counts twice, as it may be embedded twice.
+
+    >>> import numpy as np
+    >>> B = np.ones((8, 8))
+    >>> constants_nbytes(jax.jit(lambda x: B @ x).trace(jnp.ones(8)).jaxpr)
+    512
+    >>> constants_nbytes(jax.jit(lambda x: B @ x + jax.jit(lambda y: B.T @ y)(x)).trace(jnp.ones(8)).jaxpr)
+    1024
+    """
+    seen, total, stack = set(), 0, [closed_jaxpr]
+    while stack:
+        item = stack.pop()
+        if id(item) in seen:
+            continue
+        seen.add(id(item))
+        for c in getattr(item, "consts", ()):
+            if id(c) not in seen:
+                seen.add(id(c))
+                total += int(getattr(c, "nbytes", 0))
+        for eqn in getattr(getattr(item, "jaxpr", item), "eqns", ()):
+            for value in eqn.params.values():
+                for sub in value if isinstance(value, (tuple, list)) else (value,):
+                    if hasattr(sub, "eqns") or hasattr(sub, "consts"):
+                        stack.append(sub)
+    return total
+
+
+def options_for_constants(options, nbytes: int):
+    """``options`` without the classic emitters when a program's constants exceed ``CLASSIC_EMITTERS_MAX_CONSTANTS``."""
+    if not options or nbytes <= CLASSIC_EMITTERS_MAX_CONSTANTS:
+        return options
+    return {k: v for k, v in options.items() if k != "xla_cpu_use_fusion_emitters"}
+
+
 def quick_jit(fun, **kwargs):
     """``jax.jit(fun, compiler_options=QUICK_XLA)``, for hamcheck's own top-level programs.
 
     Only at the top level: jax refuses compiler options on a jit called inside
-    another jit, so a model's own functions are never wrapped with it.
+    another jit, so a model's own functions are never wrapped with it. Only for
+    programs with small constants (see ``CLASSIC_EMITTERS_MAX_CONSTANTS``): it
+    cannot see them before compiling, so programs of a user's model (whose
+    constants may be large) are lowered and compiled through
+    :func:`options_for_constants` instead.
     """
     return jax.jit(fun, compiler_options=QUICK_XLA, **kwargs)
 
 
-__all__ = ["jax", "jnp", "single_threaded_lapack", "QUICK_XLA", "quick_jit"]
+__all__ = ["jax", "jnp", "single_threaded_lapack", "QUICK_XLA", "quick_jit", "constants_nbytes", "options_for_constants"]

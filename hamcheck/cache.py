@@ -46,6 +46,7 @@ import os
 import pickle
 import re
 import shutil
+import threading
 import uuid
 import warnings
 import weakref
@@ -292,9 +293,12 @@ def stored_program(digest: str | None):
 
 
 def store_program(digest: str | None, program) -> None:
-    """Keep ``program`` (a compiled jax program) under ``digest`` for :func:`stored_program`."""
+    """Keep ``program`` (a compiled jax program) under ``digest`` for :func:`stored_program`.
+
+    A program jax's persistent cache served (see :func:`compile_lowered`) is not kept.
+    """
     folder = _program_dir()
-    if digest is None or folder is None:
+    if digest is None or folder is None or program in _FROM_JAX_CACHE:
         return
     from jax.experimental import serialize_executable
 
@@ -311,10 +315,34 @@ def store_program(digest: str | None, program) -> None:
         _store_failed("cannot be written", exc)
 
 
+#: Programs that jax's persistent cache served rather than compiled: the store never keeps them.
+#: Such an executable, serialized again, has lost its kernels: another process that loads it fails
+#: with "NOT_FOUND: Function ... not found" (jax 0.10.2 on CPU, reproduced with a 3-line program),
+#: and a degenerate-point search whose program failed so found nothing.
+_FROM_JAX_CACHE: "weakref.WeakSet" = weakref.WeakSet()
+_jax_cache_hits = threading.local()  # per compiling thread: jax reports a hit in the thread that compiles
+_JAX_CACHE_HIT = "/jax/compilation_cache/cache_hits"
+
+
+def _count_jax_cache_hit(event: str, **kwargs) -> None:
+    if event == _JAX_CACHE_HIT:
+        _jax_cache_hits.count = getattr(_jax_cache_hits, "count", 0) + 1
+
+
 def compile_lowered(lowered, options=None):
     """``lowered.compile(options)``: the one place hamcheck compiles ahead of time.
 
     Unreadable persistent-cache entries become one :class:`CacheWarning` (see
-    :func:`_watch_cache_reads`); jax then compiles the program anew.
+    :func:`_watch_cache_reads`); jax then compiles the program anew. A program
+    jax's persistent cache served is marked, so :func:`store_program` skips it.
     """
-    return lowered.compile(options) if options is not None else lowered.compile()
+    if not _state.get("listening"):
+        from jax import monitoring
+
+        monitoring.register_event_listener(_count_jax_cache_hit)
+        _state["listening"] = True
+    before = getattr(_jax_cache_hits, "count", 0)
+    program = lowered.compile(options) if options is not None else lowered.compile()
+    if getattr(_jax_cache_hits, "count", 0) != before:
+        _FROM_JAX_CACHE.add(program)
+    return program

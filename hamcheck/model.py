@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._jax import jax, jnp, quick_jit
+from ._jax import jax, jnp
 from .algebra import LieAlgebra
 from .differentiation import AUTODIFF, FiniteDifferences
 from .errors import FrozenModelError, ModelError
@@ -502,7 +502,7 @@ class Model:
             try:
                 # one small program: evaluated eagerly, each jax operation compiled on its own
                 # (13 programs, 0.33 s for the sphere's two charts in a fresh process; jitted 0.10 s)
-                if not bool(quick_jit(lambda x: jnp.all(jnp.isfinite(self.embedding(x))))(x0)):
+                if not bool(jax.jit(lambda x: jnp.all(jnp.isfinite(self.embedding(x))))(x0)):
                     return False
             except Exception:
                 return False

@@ -120,3 +120,42 @@ def test_a_new_process_runs_stored_programs_and_never_a_stale_one(tmp_path):
         entry.write_bytes(b"garbage")
     damaged = _run(folder, 1.0)
     assert "PASSED True" in damaged and damaged.count("WARN CacheWarning") == 1 and "cannot be read" in damaged, damaged
+
+
+DEGENERATE = textwrap.dedent('''
+    import sys
+    import jax.numpy as jnp, numpy as np
+    import hamcheck
+    from hamcheck import cache
+    if sys.argv[1] == "store-off":
+        cache._state["store_off"] = True
+    rot = np.array([[0.0, -1.0], [1.0, 0.0]])
+    # omega = x dx^dy degenerates on the line x = 0 (common practice): the degenerate-point search finds it
+    model = hamcheck.Model(
+        "degenerate on a line", 2, form=lambda x: x[0] * jnp.array([[0.0, 1.0], [-1.0, 0.0]]),
+        algebra=hamcheck.LieAlgebra.from_matrices([rot], names=["r"]),
+        moment=lambda x: jnp.array([-(x[0] ** 2 + x[1] ** 2) / 2]), action=lambda g, x: g @ x)
+    report = hamcheck.check(model, points=8, only=["nondegenerate"])
+    print("STATUS", report.results["nondegenerate"].status, report.results["nondegenerate"].message)
+    print("STORED", len(list((cache.persistent_cache_dir() / "programs").glob("*.xla"))))
+''')
+
+
+@pytest.mark.slow
+def test_programs_served_by_jax_cache_are_never_stored(tmp_path):
+    """An executable loaded from jax's persistent cache and serialized again has lost its kernels: another
+    process that loads it fails at run time (reproduced on jax 0.10.2), and the degenerate-point search
+    whose program failed found nothing. So the store keeps only programs compiled in the process."""
+    env = dict(os.environ, HAMCHECK_CACHE_DIR=str(tmp_path / "cache"))
+
+    def run(mode):
+        proc = subprocess.run([sys.executable, "-c", DEGENERATE, mode], capture_output=True, text=True, env=env, timeout=300)
+        assert proc.returncode == 0, proc.stderr[-3000:]
+        return proc.stdout
+
+    first = run("store-off")  # jax's cache gets the programs, the store nothing
+    assert "STATUS fail" in first and "STORED 0" in first, first
+    second = run("store-on")  # jax's cache serves every program: none may be stored
+    assert "STATUS fail" in second and "STORED 0" in second, second
+    third = run("store-on")
+    assert "STATUS fail" in third, third

@@ -33,7 +33,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import cache
-from .._jax import jax, jnp
+from .._jax import constants_nbytes, jax, jnp, options_for_constants
 from ._fingerprint import program_digest
 
 __all__ = ["Family", "Scope", "compile_for", "shape_key"]
@@ -130,6 +130,12 @@ class Family:
         return model
 
 
+def _compile(jitted, specs, options):
+    """``jitted`` traced and compiled at ``specs``, with the options its constants allow."""
+    traced = jitted.trace(*specs)
+    return cache.compile_lowered(traced.lower(), options_for_constants(options, constants_nbytes(traced.jaxpr)))
+
+
 def compile_for(model, key, make, specs, options=None):
     """``jax.jit(make(model))`` lowered at ``specs`` and compiled once per model, as a callable.
 
@@ -144,7 +150,7 @@ def compile_for(model, key, make, specs, options=None):
         try:
             def lower(_build):
                 fn = jax.jit(lambda th, *args: make(family.member(th))(*args))
-                return cache.compile_lowered(fn.lower(jax.ShapeDtypeStruct(theta.shape, theta.dtype), *specs), options)
+                return _compile(fn, (jax.ShapeDtypeStruct(theta.shape, theta.dtype), *specs), options)
 
             prog = cache.compiled(family.scope, family.program_key(key), lower)
             return lambda *args: prog(theta, *args)
@@ -154,7 +160,7 @@ def compile_for(model, key, make, specs, options=None):
         digest = program_digest(m, ("compile_for", key, repr(specs), repr(options)), None, builder=make)
         prog = cache.stored_program(digest)
         if prog is None:
-            prog = cache.compile_lowered(jax.jit(make(m)).lower(*specs), options)
+            prog = _compile(jax.jit(make(m)), specs, options)
             cache.store_program(digest, prog)
         return prog
 

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import QUICK_XLA, jax, jnp
+from .._jax import QUICK_XLA, constants_nbytes, jax, jnp, options_for_constants
 from ..cache import compile_lowered, compiled, has_compiled, parallel_map, store_program, stored_program
 from ..diagnose import Evidence
 from ..errors import UsageError
@@ -223,7 +223,11 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
             key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
             if shared:
                 key = family.program_key(key)
-            return key, lambda: jax.jit(program).lower(th_spec, *spec)
+            def lower():
+                traced = jax.jit(program).trace(th_spec, *spec)
+                return traced.lower(), constants_nbytes(traced.jaxpr)
+
+            return key, lower
 
         keyed = [lowered(names) for names in groups]
         missing = [(key, lower) for key, lower in keyed if not has_compiled(owner, key)]
@@ -232,7 +236,9 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
         found = {key: prog for key in digests if (prog := stored_program(digests[key])) is not None}
         # the rest lowered here in turn (tracing holds the GIL), compiled in parallel threads
         todo = {key: lower() for key, lower in missing if key not in found}
-        built = parallel_map(lambda low: compile_lowered(low, options), list(todo.values()), workers_available(settings))
+        built = parallel_map(
+            lambda low: compile_lowered(low[0], options_for_constants(options, low[1])), list(todo.values()), workers_available(settings)
+        )
         for key, prog in zip(todo, built):
             store_program(digests[key], prog)
             found[key] = prog
