@@ -263,8 +263,12 @@ def _initialize_lapack() -> None:
         jax.jit(jnp.linalg.solve).lower(jnp.ones((1, 1)), jnp.ones((1,)))
 
 
-def stored_program(digest: str | None):
+def stored_program(digest: str | None, rebuild=None):
     """The compiled program stored under ``digest``, or None (not stored, or no store).
+
+    With ``rebuild`` (a function compiling the program anew), the program is
+    returned as a :class:`FirstRunChecked`: an entry that loads but cannot run is
+    dropped and replaced by ``rebuild()`` instead of failing the check.
 
     The store keeps what jax's persistent cache cannot skip: jax looks a program up
     by its lowered text, so a hit there still pays tracing and lowering (most of a
@@ -285,11 +289,47 @@ def stored_program(digest: str | None):
     try:
         serialized, in_tree, out_tree = pickle.loads(path.read_bytes())
         _initialize_lapack()
-        return serialize_executable.deserialize_and_load(serialized, in_tree, out_tree)
+        program = serialize_executable.deserialize_and_load(serialized, in_tree, out_tree)
     except Exception as exc:  # a damaged entry: empty the store (other entries may be damaged too), say so once
         shutil.rmtree(folder, ignore_errors=True)
         _store_failed("had an entry that cannot be read", exc)
         return None
+    return program if rebuild is None else FirstRunChecked(program, path, rebuild)
+
+
+class FirstRunChecked:
+    """A stored program whose first run is watched: if it fails, the entry is deleted and the program rebuilt.
+
+    An entry can load and still not run (an executable that lost its kernels gave
+    "NOT_FOUND: Function ... not found" only when called). Running it anyway would
+    turn a check's programs into a per-kernel fallback on every later run, and a
+    search's failing objective into "found nothing". The first call runs under a
+    lock (other threads wait for its verdict); later calls go straight through.
+    """
+
+    def __init__(self, program, path: Path, rebuild):
+        self._program, self._path, self._rebuild = program, path, rebuild
+        self._trusted = False
+        self._lock = threading.Lock()
+
+    def __call__(self, *args):
+        if not self._trusted:
+            with self._lock:
+                if not self._trusted:
+                    from ._jax import jax
+
+                    try:
+                        out = jax.block_until_ready(self._program(*args))
+                    except Exception as exc:
+                        self._path.unlink(missing_ok=True)
+                        _warn_once(f"a stored program in {self._path.parent} could not run ({type(exc).__name__}: "
+                                   f"{str(exc)[:200]}); it was deleted and compiled anew")
+                        self._program = self._rebuild()
+                    else:
+                        self._trusted = True
+                        return out
+                    self._trusted = True
+        return self._program(*args)
 
 
 def store_program(digest: str | None, program) -> None:

@@ -129,13 +129,28 @@ DEGENERATE = textwrap.dedent('''
     from hamcheck import cache
     if sys.argv[1] == "store-off":
         cache._state["store_off"] = True
+    if sys.argv[1] == "plant":  # the guard removed: programs jax's cache served are stored as they are
+
+        class Never:
+            def add(self, program):
+                pass
+
+            def __contains__(self, program):
+                return False
+
+        cache._FROM_JAX_CACHE = Never()
     rot = np.array([[0.0, -1.0], [1.0, 0.0]])
     # omega = x dx^dy degenerates on the line x = 0 (common practice): the degenerate-point search finds it
     model = hamcheck.Model(
         "degenerate on a line", 2, form=lambda x: x[0] * jnp.array([[0.0, 1.0], [-1.0, 0.0]]),
         algebra=hamcheck.LieAlgebra.from_matrices([rot], names=["r"]),
         moment=lambda x: jnp.array([-(x[0] ** 2 + x[1] ** 2) / 2]), action=lambda g, x: g @ x)
-    report = hamcheck.check(model, points=8, only=["nondegenerate"])
+    import warnings
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        report = hamcheck.check(model, points=8, only=["nondegenerate"])
+    for w in seen:
+        print("WARN", w.category.__name__, w.message)
     print("STATUS", report.results["nondegenerate"].status, report.results["nondegenerate"].message)
     print("STORED", len(list((cache.persistent_cache_dir() / "programs").glob("*.xla"))))
 ''')
@@ -159,3 +174,23 @@ def test_programs_served_by_jax_cache_are_never_stored(tmp_path):
     assert "STATUS fail" in second and "STORED 0" in second, second
     third = run("store-on")
     assert "STATUS fail" in third, third
+
+
+@pytest.mark.slow
+def test_a_stored_program_that_cannot_run_is_rebuilt_and_the_search_still_finds_the_line(tmp_path):
+    """Entries that load but fail when called (planted: the guard above removed) are deleted and compiled
+    anew on their first run, with one warning: the degenerate-point search must still find x = 0."""
+    env = dict(os.environ, HAMCHECK_CACHE_DIR=str(tmp_path / "cache"))
+
+    def run(mode):
+        proc = subprocess.run([sys.executable, "-c", DEGENERATE, mode], capture_output=True, text=True, env=env, timeout=300)
+        assert proc.returncode == 0, proc.stderr[-3000:]
+        return proc.stdout
+
+    assert "STATUS fail" in run("store-off")
+    planted = run("plant")
+    assert "STATUS fail" in planted and "STORED 0" not in planted, planted  # broken entries now in the store
+    healed = run("store-on")
+    assert "STATUS fail" in healed and healed.count("could not run") == 1 and "NOT_FOUND" in healed, healed
+    after = run("store-on")
+    assert "STATUS fail" in after and "WARN" not in after, after

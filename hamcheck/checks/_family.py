@@ -158,10 +158,12 @@ def compile_for(model, key, make, specs, options=None):
             family.refuse(exc)
     def build(m):  # from the program store when this model was checked before, in any process
         digest = program_digest(m, ("compile_for", key, repr(specs), repr(options)), None, builder=make)
-        prog = cache.stored_program(digest)
-        if prog is None:
+
+        def fresh():
             prog = _compile(jax.jit(make(m)), specs, options)
             cache.store_program(digest, prog)
-        return prog
+            return prog
+
+        return cache.stored_program(digest, fresh) or fresh()
 
     return cache.compiled(model, key, build)

@@ -233,12 +233,20 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
         missing = [(key, lower) for key, lower in keyed if not has_compiled(owner, key)]
         # an unchanged model checked before, in any process: its programs come from the store, untraced
         digests = {key: None if shared or not (ours and use_store) else program_digest(model, key, settings) for key, _ in missing}
-        found = {key: prog for key in digests if (prog := stored_program(digests[key])) is not None}
+        lowerings = dict(missing)
+
+        def compile_one(low):
+            return compile_lowered(low[0], options_for_constants(options, low[1]))
+
+        def rebuild(key):  # a stored program that cannot run: compiled anew (cache.FirstRunChecked)
+            prog = compile_one(lowerings[key]())
+            store_program(digests[key], prog)
+            return prog
+
+        found = {key: prog for key in digests if (prog := stored_program(digests[key], lambda k=key: rebuild(k))) is not None}
         # the rest lowered here in turn (tracing holds the GIL), compiled in parallel threads
         todo = {key: lower() for key, lower in missing if key not in found}
-        built = parallel_map(
-            lambda low: compile_lowered(low[0], options_for_constants(options, low[1])), list(todo.values()), workers_available(settings)
-        )
+        built = parallel_map(compile_one, list(todo.values()), workers_available(settings))
         for key, prog in zip(todo, built):
             store_program(digests[key], prog)
             found[key] = prog
