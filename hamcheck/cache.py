@@ -335,10 +335,11 @@ class FirstRunChecked:
 def store_program(digest: str | None, program) -> None:
     """Keep ``program`` (a compiled jax program) under ``digest`` for :func:`stored_program`.
 
-    A program jax's persistent cache served (see :func:`compile_lowered`) is not kept.
+    A program jax's persistent cache served, or one with large constants (see
+    :func:`compile_lowered`), is not kept.
     """
     folder = _program_dir()
-    if digest is None or folder is None or program in _FROM_JAX_CACHE:
+    if digest is None or folder is None or program in _NOT_STORED:
         return
     from jax.experimental import serialize_executable
 
@@ -355,11 +356,16 @@ def store_program(digest: str | None, program) -> None:
         _store_failed("cannot be written", exc)
 
 
-#: Programs that jax's persistent cache served rather than compiled: the store never keeps them.
-#: Such an executable, serialized again, has lost its kernels: another process that loads it fails
-#: with "NOT_FOUND: Function ... not found" (jax 0.10.2 on CPU, reproduced with a 3-line program),
-#: and a degenerate-point search whose program failed so found nothing.
-_FROM_JAX_CACHE: "weakref.WeakSet" = weakref.WeakSet()
+#: Programs the store never keeps. (1) Those jax's persistent cache served rather than compiled:
+#: such an executable, serialized again, has lost its kernels, and another process that loads it
+#: fails with "NOT_FOUND: Function ... not found" (jax 0.10.2 on CPU, reproduced with a 3-line
+#: program; a degenerate-point search whose program failed so found nothing). (2) Those whose
+#: constants exceed STORE_MAX_CONSTANTS.
+_NOT_STORED: "weakref.WeakSet" = weakref.WeakSet()
+#: Above this many bytes of constants a program is not stored: scanning and serializing CP^256's
+#: check programs (5 GB of constants in their code) ran out of 24 GiB, and for programs that large
+#: running, not compiling, is what a check waits for.
+STORE_MAX_CONSTANTS = 16 * 2**20
 _jax_cache_hits = threading.local()  # per compiling thread: jax reports a hit in the thread that compiles
 _JAX_CACHE_HIT = "/jax/compilation_cache/cache_hits"
 
@@ -369,13 +375,20 @@ def _count_jax_cache_hit(event: str, **kwargs) -> None:
         _jax_cache_hits.count = getattr(_jax_cache_hits, "count", 0) + 1
 
 
-def compile_lowered(lowered, options=None):
+def compile_lowered(lowered, options=None, constants: int = 0):
     """``lowered.compile(options)``: the one place hamcheck compiles ahead of time.
 
+    ``constants`` is the size of the program's constants in bytes
+    (``_jax.constants_nbytes`` of its jaxpr): above ``STORE_MAX_CONSTANTS`` the
+    program is marked so :func:`store_program` skips it, and the options lose
+    what such programs cannot afford (``_jax.options_for_constants``).
     Unreadable persistent-cache entries become one :class:`CacheWarning` (see
     :func:`_watch_cache_reads`); jax then compiles the program anew. A program
-    jax's persistent cache served is marked, so :func:`store_program` skips it.
+    jax's persistent cache served is marked too.
     """
+    from ._jax import options_for_constants
+
+    options = options_for_constants(options, constants)
     if not _state.get("listening"):
         from jax import monitoring
 
@@ -383,6 +396,6 @@ def compile_lowered(lowered, options=None):
         _state["listening"] = True
     before = getattr(_jax_cache_hits, "count", 0)
     program = lowered.compile(options) if options is not None else lowered.compile()
-    if getattr(_jax_cache_hits, "count", 0) != before:
-        _FROM_JAX_CACHE.add(program)
+    if getattr(_jax_cache_hits, "count", 0) != before or constants > STORE_MAX_CONSTANTS:
+        _NOT_STORED.add(program)
     return program

@@ -113,3 +113,18 @@ def test_unwritable_or_corrupt_folder_gives_one_warning_and_is_ignored(tmp_path)
     out = _run(folder)
     assert out.count("WARN CacheWarning") == 1 and "cannot be read" in out, out
     assert "VALUE 1.68" in out and out.count("WARN") == 1
+
+
+def test_programs_with_large_constants_are_never_stored():
+    """Scanning and serializing CP^256's programs (5 GB of constants in their code) ran out of 24 GiB
+    (measured): above cache.STORE_MAX_CONSTANTS a program is marked and store_program skips it."""
+    import jax
+    import jax.numpy as jnp
+
+    from hamcheck import cache
+
+    at_limit = cache.compile_lowered(jax.jit(lambda x: x * 3.0).lower(jnp.ones(5)), None, constants=cache.STORE_MAX_CONSTANTS)
+    large = cache.compile_lowered(jax.jit(lambda x: x * 4.0).lower(jnp.ones(5)), None, constants=cache.STORE_MAX_CONSTANTS + 1)
+    assert large in cache._NOT_STORED and float(large(jnp.ones(5))[0]) == 4.0
+    # at the limit only a hit in jax's cache (the other reason) would mark it
+    assert at_limit not in cache._NOT_STORED or cache.persistent_cache_dir() is not None

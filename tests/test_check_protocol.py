@@ -89,7 +89,7 @@ def test_prepare_runs_once_before_the_programs_compile_and_not_for_a_skipped_che
 
     events = []
     real_compile = cache.compile_lowered
-    monkeypatch.setattr(run, "compile_lowered", lambda low, options=None: (events.append("compile"), real_compile(low, options))[1])
+    monkeypatch.setattr(run, "compile_lowered", lambda low, options=None, **kw: (events.append("compile"), real_compile(low, options, **kw))[1])
     prepared = dataclasses.replace(ZERO_DIAGONAL, prepare=lambda model, settings: events.append(("prepare", model.name)))
     monkeypatch.setattr(_registry, "CHECKS", _registry.CHECKS + (prepared,))
     hamcheck.cache.clear()

@@ -80,7 +80,7 @@ SCRIPT = textwrap.dedent('''
     calls = []
     for mod in (run, _family.cache):
         real = mod.compile_lowered
-        mod.compile_lowered = lambda low, options=None, real=real: calls.append(1) or real(low, options)
+        mod.compile_lowered = lambda low, options=None, real=real, **kw: calls.append(1) or real(low, options, **kw)
     factor = float(sys.argv[1])
     rot = np.array([[0.0, -1.0], [1.0, 0.0]])
     model = hamcheck.Model(
@@ -138,7 +138,7 @@ DEGENERATE = textwrap.dedent('''
             def __contains__(self, program):
                 return False
 
-        cache._FROM_JAX_CACHE = Never()
+        cache._NOT_STORED = Never()
     rot = np.array([[0.0, -1.0], [1.0, 0.0]])
     # omega = x dx^dy degenerates on the line x = 0 (common practice): the degenerate-point search finds it
     model = hamcheck.Model(

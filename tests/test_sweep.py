@@ -98,7 +98,7 @@ def _counting_compiles(monkeypatch):
     monkeypatch.setitem(cache._state, "store_off", True)
     calls = []
     real = run.compile_lowered
-    monkeypatch.setattr(run, "compile_lowered", lambda low, options=None: calls.append(1) or real(low, options))
+    monkeypatch.setattr(run, "compile_lowered", lambda low, options=None, **kw: calls.append(1) or real(low, options, **kw))
     return calls
 
 

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import QUICK_XLA, constants_nbytes, jax, jnp, options_for_constants
+from .._jax import QUICK_XLA, constants_nbytes, jax, jnp
 from ..cache import compile_lowered, compiled, has_compiled, parallel_map, store_program, stored_program
 from ..diagnose import Evidence
 from ..errors import UsageError
@@ -236,7 +236,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
         lowerings = dict(missing)
 
         def compile_one(low):
-            return compile_lowered(low[0], options_for_constants(options, low[1]))
+            return compile_lowered(low[0], options, constants=low[1])
 
         def rebuild(key):  # a stored program that cannot run: compiled anew (cache.FirstRunChecked)
             prog = compile_one(lowerings[key]())
