@@ -73,13 +73,6 @@ QUICK_XLA = {
 }
 
 
-#: Above this many bytes of constants in one program, XLA's fusion emitters are kept: the classic
-#: ones write every constant into the generated code, and CP^256's check programs (its 537 MB torus
-#: basis, copied into each kernel that uses it) ran out of 24 GiB with them, where the fusion
-#: emitters peaked at 5.3 GB (measured 2026-12-04). Below it, compiling is what a check waits for.
-CLASSIC_EMITTERS_MAX_CONSTANTS = 16 * 2**20
-
-
 def constants_nbytes(closed_jaxpr) -> int:
     """Bytes of the arrays a traced program closes over, in it and in every program it calls.
 
@@ -110,24 +103,13 @@ def constants_nbytes(closed_jaxpr) -> int:
     return total
 
 
-def options_for_constants(options, nbytes: int):
-    """``options`` without the classic emitters when a program's constants exceed ``CLASSIC_EMITTERS_MAX_CONSTANTS``."""
-    if not options or nbytes <= CLASSIC_EMITTERS_MAX_CONSTANTS:
-        return options
-    return {k: v for k, v in options.items() if k != "xla_cpu_use_fusion_emitters"}
-
-
 def quick_jit(fun, **kwargs):
     """``jax.jit(fun, compiler_options=QUICK_XLA)``, for hamcheck's own top-level programs.
 
     Only at the top level: jax refuses compiler options on a jit called inside
-    another jit, so a model's own functions are never wrapped with it. Only for
-    programs with small constants (see ``CLASSIC_EMITTERS_MAX_CONSTANTS``): it
-    cannot see them before compiling, so programs of a user's model (whose
-    constants may be large) are lowered and compiled through
-    :func:`options_for_constants` instead.
+    another jit, so a model's own functions are never wrapped with it.
     """
     return jax.jit(fun, compiler_options=QUICK_XLA, **kwargs)
 
 
-__all__ = ["jax", "jnp", "single_threaded_lapack", "QUICK_XLA", "quick_jit", "constants_nbytes", "options_for_constants"]
+__all__ = ["jax", "jnp", "single_threaded_lapack", "QUICK_XLA", "quick_jit", "constants_nbytes"]

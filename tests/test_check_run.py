@@ -93,25 +93,3 @@ def _tiny():
     return Model("tiny", 2, form=lambda x: jnp.array([[0.0, 1], [-1, 0]]), algebra=U1,
                  moment=lambda x: jnp.array([-(x @ x) / 2]), action=lambda g, x: g @ x)
 
-
-def test_programs_with_large_constants_keep_the_fusion_emitters(monkeypatch):
-    """XLA's classic CPU emitters write constants into the generated code: CP^256's check programs (a 537 MB
-    torus basis) ran out of 24 GiB with them (measured), so above a limit the fusion emitters stay."""
-    from hamcheck import _jax, cache
-
-    B = np.linspace(0.0, 1.0, 64 * 64).reshape(64, 64)  # 32 KiB of constants in the form
-    u1 = LieAlgebra.from_matrices([np.array([[0.0, -1.0], [1.0, 0.0]])], names=["rot"])
-    model = Model("plane with a constant", 2, form=lambda x: jnp.array([[0.0, 1.0], [-1.0, 0.0]]) * (1 + 0 * jnp.sum(B)),
-                  algebra=u1, moment=lambda x: jnp.array([-(x @ x) / 2]), action=lambda g, x: g @ x)
-    seen = []
-    real = _jax.options_for_constants  # what compile_lowered hands to XLA
-    monkeypatch.setattr(_jax, "options_for_constants", lambda options, nbytes: (lambda o: (seen.append(o), o)[1])(real(options, nbytes)))
-    monkeypatch.setitem(cache._state, "store_off", True)  # a stored program would not compile
-    assert _jax.constants_nbytes(jax.jit(model.form).trace(jnp.zeros(2)).jaxpr) >= B.nbytes
-    for limit, classic in ((_jax.CLASSIC_EMITTERS_MAX_CONSTANTS, True), (B.nbytes // 2, False)):
-        monkeypatch.setattr(_jax, "CLASSIC_EMITTERS_MAX_CONSTANTS", limit)
-        hamcheck.cache.clear()
-        seen.clear()
-        assert hamcheck.check(model, points=4, only=["antisymmetric", "moment_map"]).passed
-        assert seen and all(("xla_cpu_use_fusion_emitters" in o) == classic for o in seen), (limit, seen)
-        assert all(o["xla_backend_optimization_level"] == 0 for o in seen)  # the rest of the quick options stay

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ._common import check_commuting, compiled, subalgebra_basis
 from .fixed_points import line_decomposition
 
@@ -27,7 +27,7 @@ def generic_element(B):
 def weight_vectors(model, p, B, xi):
     """Weights ``alpha_k(t_j)`` (n x m) of the torus on the lines of ``(T_pM, J)``."""
     alphas, V, isolated = line_decomposition(model, p, xi)
-    lin = compiled(model, "torus_linearization", lambda m: jax.jit(jax.jacfwd(lambda x, e: e @ m.fields_at(x))))
+    lin = compiled(model, "torus_linearization", lambda m: quick_jit(jax.jacfwd(lambda x, e: e @ m.fields_at(x))))
     flow = model.convention.flow
     out = np.zeros((V.shape[1], B.shape[0]))
     for j, b in enumerate(B):

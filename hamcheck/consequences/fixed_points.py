@@ -37,7 +37,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..diagnose import vec
 from ..errors import ModelError, UsageError
 from ._common import algebra_vector, compiled, field_along, require_model
@@ -244,10 +244,10 @@ def _build(model):
         return jax.jacfwd(residual)(x, xi)
 
     return (
-        jax.jit(residual),
-        jax.jit(linearization),
-        jax.jit(jax.vmap(residual, in_axes=(0, None))),
-        jax.jit(lambda x, xi: model.moment_at(x) @ xi),
+        quick_jit(residual),
+        quick_jit(linearization),
+        quick_jit(jax.vmap(residual, in_axes=(0, None))),
+        quick_jit(lambda x, xi: model.moment_at(x) @ xi),
     )
 
 
@@ -346,7 +346,7 @@ def _search(model, xi, starts, rng, max_iterations):
 
 
 def _embed(chart, x):
-    f = compiled(chart, "embedding", lambda m: jax.jit(lambda y: jnp.asarray(m.embedding(y), dtype=jnp.float64)))
+    f = compiled(chart, "embedding", lambda m: quick_jit(lambda y: jnp.asarray(m.embedding(y), dtype=jnp.float64)))
     return np.asarray(f(jnp.asarray(x)))
 
 

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import UsageError
 from ._common import algebra_vector, compiled, fmt, hamiltonian_field, require_model
 
@@ -65,8 +65,8 @@ class Flow:
 
 
 def _build(model):
-    rhs = jax.jit(lambda x, xi: hamiltonian_field(model, x, xi))
-    mom = jax.jit(jax.vmap(model.moment_at))
+    rhs = quick_jit(lambda x, xi: hamiltonian_field(model, x, xi))
+    mom = quick_jit(jax.vmap(model.moment_at))
     target = None
     if model.has_action:
         flow_sign = model.convention.flow
@@ -74,7 +74,7 @@ def _build(model):
         def act(t, xi, x0):
             return model.action_at(model.algebra.exp(flow_sign * t * xi), x0)
 
-        target = jax.jit(jax.vmap(act, in_axes=(0, None, None)))
+        target = quick_jit(jax.vmap(act, in_axes=(0, None, None)))
     return rhs, mom, target
 
 

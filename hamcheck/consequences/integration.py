@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import ModelError, UsageError
 from ._common import compiled, log_liouville
 
@@ -120,7 +120,7 @@ def _build_integrand(model):
         mu = model.moment_at(x)
         return jnp.exp(s * (mu @ xi) + log_liouville(model, x) + logj), x, mu
 
-    return jax.jit(lambda U, s, xi: jax.lax.map(lambda u: one(u, s, xi), U, batch_size=VMAP_BATCH))
+    return quick_jit(lambda U, s, xi: jax.lax.map(lambda u: one(u, s, xi), U, batch_size=VMAP_BATCH))
 
 
 def _evaluator(model):

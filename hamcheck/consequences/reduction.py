@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import jax, jnp
+from .._jax import jax, jnp, quick_jit
 from ..errors import UsageError
 from ._common import compiled, require_model, subalgebra_basis
 from .fixed_points import fixed_points
@@ -121,7 +121,7 @@ def _build(model):
         J = jax.jacfwd(mu_h)(x, B)
         return J, B @ model.fields_at(x), model.form_at(x)
 
-    return jax.jit(mu_h), jax.jit(jax.jacfwd(mu_h)), jax.jit(geometry)
+    return quick_jit(mu_h), quick_jit(jax.jacfwd(mu_h)), quick_jit(geometry)
 
 
 def _null(A, tol, scale=0.0):
