@@ -3,8 +3,8 @@
 Prints three tables in one run (medians; ratios measured in the same run, since
 the machine is shared and noisy):
 
-1. CP^n with the torus action, n = 1 .. 256 (dim 2 .. 512): compile time of the
-   first ``check()`` (compile and first run), the median run time of further
+1. CP^n with the torus action, n = 1 .. 256 (dim 2 .. 512), each size in a fresh
+   process: compile time of the first ``check()`` (compile and first run), the median run time of further
    complete checks on the same model (the compiled programs are reused; the
    degenerate-point search and the diagnoses included), the median time of one
    batched evaluation of the form on the same points (jit + vmap), and their
@@ -91,29 +91,56 @@ def torus_model(n):
                           moment=moment, action=lambda g, x: g @ x)
 
 
+# one row of the CP^n table, in a process of its own: one size's compiled programs never weigh on the
+# next (all sizes in one process ran out of 24 GiB at dim 512, where that size alone peaks at 5.5 GB)
+ROW_CHILD = """
+import sys
+sys.path.insert(0, {bench!r})
+import bench_check
+bench_check.cpn_row({n}, {points}, {repeat})
+"""
+
+
 def cpn_table(sizes, points, repeat):
+    import jax
+
+    import hamcheck
+
+    print(f"CP^n torus model, {points} points, medians of {repeat}, each size in a fresh process; jax {jax.__version__}, "
+          f"{len(os.sched_getaffinity(0))} core(s), workers {hamcheck.checks.run.workers_available(hamcheck.Settings())}")
+    print(f"| {'n':>4} | {'dim':>4} | {'compile s':>9} | {'run s':>7} | {'form eval s':>11} | {'ratio':>6} | passed |")
+    print("|---:|---:|---:|---:|---:|---:|---|", flush=True)
+    for n in sizes:
+        code = ROW_CHILD.format(bench=str(ROOT / "benchmarks"), n=n, points=points, repeat=repeat)
+        out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, env=dict(os.environ, PYTHONPATH=str(ROOT)),
+                             capture_output=True, text=True)
+        rows = [line for line in out.stdout.splitlines() if line.startswith("|")]
+        if out.returncode != 0 or not rows:
+            print(f"| {n:>4} | {2 * n:>4} | (the child process ended with code {out.returncode}: "
+                  f"{(out.stderr.strip().splitlines() or ['no message'])[-1][:120]}) |", flush=True)
+            continue
+        print(rows[-1], flush=True)
+
+
+def cpn_row(n, points, repeat):
+    """Print one row of the CP^n table (run by ``cpn_table`` in a child process)."""
     import jax
     import jax.numpy as jnp
     import numpy as np
 
     import hamcheck
 
-    print(f"CP^n torus model, {points} points, medians of {repeat}; jax {jax.__version__}, "
-          f"{len(os.sched_getaffinity(0))} core(s), workers {hamcheck.checks.run.workers_available(hamcheck.Settings())}")
-    print(f"| {'n':>4} | {'dim':>4} | {'compile s':>9} | {'run s':>7} | {'form eval s':>11} | {'ratio':>6} | passed |")
-    print("|---:|---:|---:|---:|---:|---:|---|")
-    for n in sizes:
-        model = torus_model(n)
-        xs = jnp.asarray(np.random.default_rng(0).standard_normal((points, 2 * n)))
-        form_batch = jax.jit(jax.vmap(model.form_at))
-        jax.block_until_ready(form_batch(xs))  # compile outside the timing
-        t_form = median_time(lambda: jax.block_until_ready(form_batch(xs)), max(repeat, 5))
-        t0 = time.perf_counter()
-        report = hamcheck.check(model, points=points)
-        t_first = time.perf_counter() - t0
-        t_run = median_time(lambda: hamcheck.check(model, points=points, seed=1), repeat)
-        print(f"| {n:>4} | {2 * n:>4} | {t_first - t_run:>9.2f} | {t_run:>7.3f} | {t_form:>11.5f} | "
-              f"{t_run / t_form:>6.1f} | {report.passed} |", flush=True)
+    model = torus_model(n)
+    xs = jnp.asarray(np.random.default_rng(0).standard_normal((points, 2 * n)))
+    form_batch = jax.jit(jax.vmap(model.form_at))
+    jax.block_until_ready(form_batch(xs))  # compile outside the timing
+    t_form = median_time(lambda: jax.block_until_ready(form_batch(xs)), max(repeat, 5))
+    t0 = time.perf_counter()
+    report = hamcheck.check(model, points=points)
+    t_first = time.perf_counter() - t0
+    t_run = median_time(lambda: hamcheck.check(model, points=points, seed=1), repeat)
+    print(f"| {n:>4} | {2 * n:>4} | {t_first - t_run:>9.2f} | {t_run:>7.3f} | {t_form:>11.5f} | "
+          f"{t_run / t_form:>6.1f} | {report.passed} |", flush=True)
 
 
 def cli_table(repeat):
