@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
-import inspect
+import sys
 import os
 from dataclasses import dataclass
 
@@ -96,14 +96,19 @@ def _caller_file() -> str | None:
     """
     here = os.path.dirname(os.path.abspath(__file__))
     first = None
-    for frame in inspect.stack()[2:]:
-        path = os.path.abspath(frame.filename)
-        if path.startswith(here) or frame.filename.startswith("<"):
+    try:  # the caller's caller, then outwards (inspect.stack() read every frame's source: 37 ms a model)
+        frame = sys._getframe(2)
+    except ValueError:
+        return None
+    while frame is not None:
+        filename, function, frame = frame.f_code.co_filename, frame.f_code.co_name, frame.f_back
+        path = os.path.abspath(filename)
+        if path.startswith(here) or filename.startswith("<"):
             continue
         if "site-packages" in path or path.startswith(os.path.dirname(os.__file__)):
             break
         first = first or path
-        if frame.function == "<module>":
+        if function == "<module>":
             return path
     return first
 
