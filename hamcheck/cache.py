@@ -325,10 +325,9 @@ class FirstRunChecked:
                         _warn_once(f"a stored program in {self._path.parent} could not run ({type(exc).__name__}: "
                                    f"{str(exc)[:200]}); it was deleted and compiled anew")
                         self._program = self._rebuild()
-                    else:
-                        self._trusted = True
-                        return out
+                        out = self._program(*args)
                     self._trusted = True
+                    return out
         return self._program(*args)
 
 
@@ -374,6 +373,15 @@ _JAX_CACHE_HIT = "/jax/compilation_cache/cache_hits"
 def _count_jax_cache_hit(event: str, **kwargs) -> None:
     if event == _JAX_CACHE_HIT:
         _jax_cache_hits.count = getattr(_jax_cache_hits, "count", 0) + 1
+
+
+def lower_program(jitted, *specs):
+    """``(lowered, constants)``: ``jitted`` lowered at ``specs``, and the bytes of constants its jaxpr
+    closes over (``_jax.constants_nbytes``), the arguments :func:`compile_lowered` takes."""
+    from ._jax import constants_nbytes
+
+    traced = jitted.trace(*specs)
+    return traced.lower(), constants_nbytes(traced.jaxpr)
 
 
 def compile_lowered(lowered, options=None, constants: int = 0):

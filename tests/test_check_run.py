@@ -92,4 +92,3 @@ def _tiny():
     U1 = LieAlgebra.from_matrices([np.array([[0.0, -1.0], [1.0, 0.0]])])
     return Model("tiny", 2, form=lambda x: jnp.array([[0.0, 1], [-1, 0]]), algebra=U1,
                  moment=lambda x: jnp.array([-(x @ x) / 2]), action=lambda g, x: g @ x)
-

@@ -33,7 +33,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .. import cache
-from .._jax import constants_nbytes, jax, jnp
+from .._jax import jax, jnp
 from ._fingerprint import program_digest
 
 __all__ = ["Family", "Scope", "compile_for", "shape_key"]
@@ -131,9 +131,9 @@ class Family:
 
 
 def _compile(jitted, specs, options):
-    """``jitted`` traced and compiled at ``specs``, with the options its constants allow."""
-    traced = jitted.trace(*specs)
-    return cache.compile_lowered(traced.lower(), options, constants=constants_nbytes(traced.jaxpr))
+    """``jitted`` lowered and compiled at ``specs``."""
+    lowered, constants = cache.lower_program(jitted, *specs)
+    return cache.compile_lowered(lowered, options, constants=constants)
 
 
 def compile_for(model, key, make, specs, options=None):

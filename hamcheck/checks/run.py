@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._jax import QUICK_XLA, constants_nbytes, jax, jnp
-from ..cache import compile_lowered, compiled, has_compiled, parallel_map, store_program, stored_program
+from .._jax import QUICK_XLA, jax, jnp
+from ..cache import compile_lowered, compiled, has_compiled, lower_program, parallel_map, store_program, stored_program
 from ..diagnose import Evidence
 from ..errors import UsageError
 from ..model import Model
@@ -223,11 +223,7 @@ def _run_traced(model, kernels, xs, probes, settings, checks_by_name=None, famil
             key = ("checks", tuple(names), batch, settings.fast_compile, str(jax.tree_util.tree_map(lambda a: (a.shape, str(a.dtype)), spec)))
             if shared:
                 key = family.program_key(key)
-            def lower():
-                traced = jax.jit(program).trace(th_spec, *spec)
-                return traced.lower(), constants_nbytes(traced.jaxpr)
-
-            return key, lower
+            return key, lambda: lower_program(jax.jit(program), th_spec, *spec)
 
         keyed = [lowered(names) for names in groups]
         missing = [(key, lower) for key, lower in keyed if not has_compiled(owner, key)]
